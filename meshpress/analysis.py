@@ -1,0 +1,141 @@
+"""The main job, end to end: body + taps + field -> loads."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from . import __version__
+from .body import Body, load_body
+from .coefficients import ISA_RHO, dynamic_pressure
+from .errors import InputError
+from .fields import make_field
+from .integrate import force_and_moment
+from .progress import Progress
+from .projection import ProjectedTaps, project_taps
+from .results import LoadResult
+from .taps import read_taps
+from .tolerances import TOL
+
+
+def compute_loads(
+    body: Body,
+    taps: ProjectedTaps,
+    field=None,
+    *,
+    q: float | None = None,
+    ref_area: float | None = None,
+    p_ref: float = 0.0,
+    frontal_resolution: float = TOL.frontal_resolution_m,
+    progress: Progress | None = None,
+) -> LoadResult:
+    """Fit a field to the taps and integrate it over the body.
+
+    Parameters
+    ----------
+    body : Body
+    taps : ProjectedTaps
+        Values in Pa (``kind == "p"``) or Cp.
+    field : Field, optional
+        Unfitted field method; default straight-line thin-plate RBF.
+    q : float, optional
+        Dynamic pressure, Pa.  Needed to turn Pa into coefficients or Cp into
+        forces.
+    ref_area : float, optional
+        Reference area, m2; default the frontal area.
+    p_ref : float
+        Reference pressure subtracted everywhere, in the taps' unit (Pa or Cp).
+    frontal_resolution : float
+        Raster pixel size for the frontal area, m.
+
+    Returns
+    -------
+    LoadResult
+    """
+    progress = progress or Progress(enabled=False)
+    if q is not None and not (q > 0):
+        raise InputError(f"dynamic pressure q must be positive, got {q:g} Pa")
+    if ref_area is not None and not (ref_area > 0):
+        raise InputError(f"reference area must be positive, got {ref_area:g} m2")
+    field = field or make_field("rbf")
+    with progress.step(f"fitting {field.name} field"):
+        field.fit(body, taps, progress=progress)
+    values = field.face_values(progress=progress)
+    r0 = np.zeros(3)
+    warnings = list(body.warnings) + list(field.warnings_)
+    if body.axles is None:
+        # Ground point under the body's centre: the frame origin when no axles are given.
+        warnings.append("no axle positions given: moment taken about the ground under the body's centre; "
+                        "axle figures left out")
+    F, M = force_and_moment(body.area_vectors, body.centroids, values, r0, p_ref)
+    if taps.kind == "p":
+        force, moment = F, M
+        per_q = (F / q, M / q) if q else (None, None)
+    else:
+        per_q = (F, M)
+        force, moment = (F * q, M * q) if q else (None, None)
+    if ref_area is None:
+        with progress.step("frontal area"):
+            ref_area = body.frontal_area(frontal_resolution)
+        area_src = f"frontal area (y-z projection rasterised at {frontal_resolution * 1000:g} mm)"
+    else:
+        area_src = "given"
+    if per_q[0] is None:
+        warnings.append("no --q or --speed given: forces in N only, coefficients left out")
+        per_q = (np.full(3, np.nan), np.full(3, np.nan))
+    tap_rows = [
+        {"name": n, "value": float(v), "distance_m": float(d), "x_m": float(p[0]), "y_m": float(p[1]),
+         "z_m": float(p[2]), "face": int(f)}
+        for n, v, d, p, f in zip(taps.names, taps.values, taps.distance, taps.points, taps.faces)
+    ]
+    return LoadResult(
+        force_N=None if force is None else force.tolist(),
+        moment_Nm=None if moment is None else moment.tolist(),
+        force_per_q_m2=per_q[0].tolist(),
+        moment_per_q_m3=per_q[1].tolist(),
+        moment_ref_m=r0.tolist(),
+        q_Pa=q,
+        ref_area_m2=float(ref_area),
+        ref_area_source=area_src,
+        wheelbase_m=None if body.axles is None else body.axles.wheelbase,
+        method=field.describe(),
+        p_ref=p_ref,
+        value_kind=taps.kind,
+        warnings=warnings,
+        taps=tap_rows,
+        mesh=body.report.to_dict() if body.report else {},
+        inputs={"mesh": body.source, "meshpress": __version__},
+        face_values=values,
+    )
+
+
+def resolve_q(q=None, speed=None, air_density=None) -> float | None:
+    """Dynamic pressure (Pa) from ``q`` or from speed (m/s) and density (kg/m3, default ISA 1.225)."""
+    if q is not None and speed is not None:
+        raise InputError("give --q or --speed, not both")
+    if speed is not None:
+        if speed <= 0:
+            raise InputError(f"--speed must be positive, got {speed:g}")
+        rho = ISA_RHO if air_density is None else air_density
+        if not rho > 0:
+            raise InputError(f"--air-density must be positive, got {rho:g}")
+        return dynamic_pressure(rho, speed)
+    return q
+
+
+def run_loads(mesh, taps_file, *, length_unit="m", up="+z", forward="-x", front_axle=None, rear_axle=None,
+              ground=None, pressure_unit="Pa", max_tap_distance=TOL.max_tap_distance_m, method="rbf",
+              method_settings=None, q=None, ref_area=None, p_ref=0.0, progress=None) -> LoadResult:
+    """File to result: :func:`load_body`, :func:`read_taps`, :func:`project_taps`, :func:`compute_loads`.
+
+    Parameters are those of the functions named; ``max_tap_distance`` in m.
+    """
+    progress = progress or Progress(enabled=False)
+    body = load_body(mesh, length_unit=length_unit, up=up, forward=forward, front_axle=front_axle,
+                     rear_axle=rear_axle, ground=ground, progress=progress)
+    table = read_taps(taps_file, pressure_unit=pressure_unit)
+    with progress.step("projecting taps"):
+        projected = project_taps(body, table, max_distance=max_tap_distance)
+    field = make_field(method, **(method_settings or {}))
+    result = compute_loads(body, projected, field, q=q, ref_area=ref_area, p_ref=p_ref, progress=progress)
+    result.inputs["taps"] = str(taps_file)
+    return result

@@ -1,0 +1,349 @@
+"""The body: a cleaned, outward-wound surface in the vehicle frame.
+
+:func:`load_body` reads a file, merges duplicate vertices, drops degenerate and
+duplicate faces, maps the mesh into the vehicle frame (SAE J1594: x rearward,
+y right, z up, m, origin on the ground midway between the axles), makes the
+winding consistent and outward, and records what it found in a
+:class:`~meshpress.diagnostics.MeshReport`.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from functools import cached_property
+from pathlib import Path
+
+import numpy as np
+
+from . import orient
+from .diagnostics import MeshReport, boundary_loops
+from .errors import InputError
+from .frame import FrameMap, rotation
+from .progress import Progress
+from .readers import read_surface
+from .tolerances import TOL
+from .units import LENGTH_UNITS, length_factor
+
+
+def _readonly(a: np.ndarray) -> np.ndarray:
+    a.flags.writeable = False
+    return a
+
+
+@dataclass(frozen=True)
+class Axles:
+    """Axle positions in the vehicle frame (m): front at -wheelbase/2, rear at +wheelbase/2."""
+
+    front_x: float
+    rear_x: float
+
+    @property
+    def wheelbase(self) -> float:
+        return self.rear_x - self.front_x
+
+
+class Body:
+    """A closed or open triangulated surface in the vehicle frame.
+
+    Geometry never changes after construction; derived arrays are computed
+    once, cached and handed out read-only.
+
+    Parameters
+    ----------
+    vertices : (n, 3) float
+        Vertex positions, m, vehicle frame.
+    faces : (m, 3) int
+        Triangles, wound so that the right-hand normal points outward.
+    frame : FrameMap, optional
+        Map from the source file's coordinates into this frame.
+    axles : Axles, optional
+        Axle positions; None when the user gave none.
+    report : MeshReport, optional
+        What the loader found.
+    warnings : list of str, optional
+        Doubts found while loading.
+    source : str, optional
+        The file the body came from.
+    """
+
+    def __init__(self, vertices, faces, *, frame=None, axles=None, report=None, warnings=None, source=None):
+        self.vertices = _readonly(np.ascontiguousarray(vertices, dtype=float))
+        self.faces = _readonly(np.ascontiguousarray(faces, dtype=np.int64))
+        self.frame = frame
+        self.axles = axles
+        self.report = report
+        self.warnings = list(warnings or [])
+        self.source = source
+
+    @property
+    def n_faces(self) -> int:
+        return len(self.faces)
+
+    @cached_property
+    def triangles(self) -> np.ndarray:
+        """(m, 3, 3) float: corner positions of every face, m."""
+        return _readonly(self.vertices[self.faces])
+
+    @cached_property
+    def area_vectors(self) -> np.ndarray:
+        """(m, 3) float: n * dA of every face (outward normal times area), m2."""
+        t = self.triangles
+        return _readonly(0.5 * np.cross(t[:, 1] - t[:, 0], t[:, 2] - t[:, 0]))
+
+    @cached_property
+    def face_areas(self) -> np.ndarray:
+        """(m,) float: face areas, m2."""
+        return _readonly(np.linalg.norm(self.area_vectors, axis=1))
+
+    @cached_property
+    def face_normals(self) -> np.ndarray:
+        """(m, 3) float: outward unit normals."""
+        a = self.face_areas
+        with np.errstate(invalid="ignore", divide="ignore"):
+            n = self.area_vectors / a[:, None]
+        return _readonly(np.nan_to_num(n))
+
+    @cached_property
+    def centroids(self) -> np.ndarray:
+        """(m, 3) float: face centroids, m."""
+        return _readonly(self.triangles.mean(axis=1))
+
+    @cached_property
+    def centroid_tree(self):
+        """scipy cKDTree over face centroids."""
+        from scipy.spatial import cKDTree
+
+        return cKDTree(self.centroids)
+
+    @cached_property
+    def max_face_radius(self) -> float:
+        """Largest distance (m) from a face centroid to one of its corners."""
+        d = np.linalg.norm(self.triangles - self.centroids[:, None, :], axis=2)
+        return float(d.max())
+
+    @cached_property
+    def vertex_faces_matrix(self):
+        """(n_vertices, m) sparse: area-weighted face -> vertex averaging matrix.
+
+        Row i averages the faces around vertex i with weights of their area.
+        """
+        from scipy import sparse
+
+        m = self.n_faces
+        rows = self.faces.ravel()
+        cols = np.repeat(np.arange(m), 3)
+        w = np.repeat(self.face_areas, 3)
+        A = sparse.csr_matrix((w, (rows, cols)), shape=(len(self.vertices), m))
+        s = np.asarray(A.sum(axis=1)).ravel()
+        s[s == 0] = 1.0
+        return sparse.diags(1.0 / s) @ A
+
+    @property
+    def area(self) -> float:
+        """Total surface area, m2."""
+        return float(self.face_areas.sum())
+
+    @property
+    def length(self) -> float:
+        """Overall length along x, m."""
+        return float(np.ptp(self.vertices[:, 0]))
+
+    def frontal_area(self, resolution: float = TOL.frontal_resolution_m) -> float:
+        """Projected area on the y-z plane (m2), rasterised at ``resolution`` m."""
+        from .frontal import frontal_area
+
+        return frontal_area(self.triangles, resolution)
+
+    def volume(self) -> float:
+        """Enclosed volume (m3) by the divergence theorem: meaningful when closed."""
+        t = self.triangles
+        return float(np.einsum("ij,ij->", t[:, 0], np.cross(t[:, 1], t[:, 2])) / 6.0)
+
+    def volume_centroid(self) -> np.ndarray:
+        """(3,) float: centroid of the enclosed volume, m (closed bodies)."""
+        t = self.triangles
+        v6 = np.einsum("ij,ij->i", t[:, 0], np.cross(t[:, 1], t[:, 2]))
+        c = t.sum(axis=1) / 4.0
+        return (c * v6[:, None]).sum(axis=0) / v6.sum()
+
+
+def load_body(
+    path,
+    *,
+    length_unit: str = "m",
+    up: str = "+z",
+    forward: str = "-x",
+    front_axle: float | None = None,
+    rear_axle: float | None = None,
+    ground: float | None = None,
+    progress: Progress | None = None,
+) -> Body:
+    """Read a surface mesh and bring it into the vehicle frame.
+
+    Parameters
+    ----------
+    path : str or Path
+        Mesh file (STL, OBJ, PLY, OFF, GLB/GLTF, VTK/VTU/VTP, ...).
+    length_unit : {"m", "cm", "mm", "in", "ft"}
+        Unit of the file's coordinates.
+    up, forward : str
+        Signed mesh axes pointing up and forward, e.g. ``"+y"``, ``"-z"``.
+    front_axle, rear_axle : float, optional
+        Axle coordinates on the mesh's forward axis, in the mesh's unit, as
+        read off the file.  Both or neither.
+    ground : float, optional
+        Ground height on the mesh's up axis, in the mesh's unit; default: the
+        body's lowest point.
+    progress : Progress, optional
+        Progress display.
+
+    Returns
+    -------
+    Body
+    """
+    progress = progress or Progress(enabled=False)
+    if (front_axle is None) != (rear_axle is None):
+        raise InputError("give both --front-axle and --rear-axle, or neither")
+    scale = length_factor(length_unit, "--length-unit: ")
+    R = rotation(up, forward)
+    with progress.step("reading mesh"):
+        v, f, parts = read_surface(path)
+    with progress.step("cleaning mesh"):
+        v, f, merged, dropped = _clean(v, f)
+    p = scale * v @ R.T
+    # Origin: ground (lowest point or given), mid-wheelbase (or mid-length), mid-track.
+    frame = FrameMap(R, scale, np.zeros(3))
+    warnings = []
+    if ground is None:
+        gz = p[:, 2].min()
+    else:
+        gz = float((frame.to_vehicle(parse_up_point(up, ground)))[0, 2])
+    if front_axle is not None:
+        xf = frame.forward_coordinate_to_x(front_axle, forward)
+        xr = frame.forward_coordinate_to_x(rear_axle, forward)
+        if not xf < xr:
+            raise InputError(
+                f"front axle ({front_axle:g}) must be ahead of the rear axle ({rear_axle:g}) "
+                f"along the forward axis {forward}"
+            )
+        x0 = 0.5 * (xf + xr)
+        axles = Axles(xf - x0, xr - x0)
+        lo_x, hi_x = p[:, 0].min(), p[:, 0].max()
+        for name, x in (("front", xf), ("rear", xr)):
+            if not lo_x <= x <= hi_x:
+                warnings.append(f"the {name} axle lies outside the body's length; check --{name}-axle and --forward")
+    else:
+        x0 = 0.5 * (p[:, 0].min() + p[:, 0].max())
+        axles = None
+    y0 = 0.5 * (p[:, 1].min() + p[:, 1].max())
+    origin = np.array([x0, y0, gz])
+    frame = FrameMap(R, scale, origin)
+    p = p - origin
+    with progress.step("orienting faces"):
+        fa, fb, same_dir, _ = orient.edge_pairs(f)
+        flip, part, orientable = orient.consistent_flip(f, fa, fb, same_dir)
+        f = f.copy()
+        f[flip] = f[flip][:, ::-1]
+        out = orient.outward_flip(p, f, part)
+        f[out] = f[out][:, ::-1]
+        n_flipped = int(np.count_nonzero(flip ^ out))
+        # Edge structure after orientation, for the diagnostics.
+        fa, fb, same_dir, boundary = orient.edge_pairs(f)
+    body = Body(p, f, frame=frame, axles=axles, source=str(path))
+    with progress.step("checking mesh"):
+        holes = boundary_loops(boundary, p)
+        n_edges_used = 3 * len(f)
+        manifold = 2 * len(fa) == n_edges_used
+        watertight = bool(manifold and not same_dir.any() and len(boundary) == 0)
+        total = body.area
+        closure = float(np.linalg.norm(body.area_vectors.sum(axis=0)) / total)
+        bmin, bmax = p.min(axis=0), p.max(axis=0)
+        report = MeshReport(
+            faces=len(f),
+            vertices=len(p),
+            parts=parts,
+            components=int(part.max() + 1),
+            merged_vertices=merged,
+            dropped_faces=dropped,
+            flipped_faces=n_flipped,
+            area_m2=total,
+            bbox_min_m=bmin.tolist(),
+            bbox_max_m=bmax.tolist(),
+            watertight=watertight,
+            holes=len(holes),
+            hole_areas_m2=holes[:20],
+            closure=closure,
+            orientable=orientable,
+            volume_m3=body.volume() if watertight else None,
+        )
+    warnings += _size_warnings(bmax - bmin, length_unit, scale)
+    if not orientable:
+        warnings.append("some faces could not be wound consistently (non-orientable or non-manifold pieces)")
+    if closure > TOL.closure_warn:
+        warnings.append(
+            f"the surface is open (|sum n dA| = {closure:.2%} of its area, {len(holes)} holes): "
+            "the loads depend on the reference pressure p_ref (each 1 Pa of offset moves lift by "
+            f"{-body.area_vectors[:, 2].sum():+.3f} N and drag by {-body.area_vectors[:, 0].sum():+.3f} N)"
+        )
+    body.report = report
+    body.warnings = warnings
+    return body
+
+
+def parse_up_point(up: str, value: float) -> np.ndarray:
+    """A mesh point whose coordinate on the (unsigned) up axis is ``value``."""
+    from .frame import parse_axis
+
+    return np.abs(parse_axis(up)) * value
+
+
+def _clean(v: np.ndarray, f: np.ndarray):
+    """Merge duplicate vertices, drop degenerate and duplicate faces, unused vertices.
+
+    Returns
+    -------
+    v : (n, 3) float
+    f : (m, 3) int
+    merged : int
+        Vertices removed by merging.
+    dropped : int
+        Faces dropped.
+    """
+    n0, m0 = len(v), len(f)
+    if f.min() < 0 or f.max() >= n0:
+        raise InputError("mesh faces refer to vertices that do not exist")
+    span = float(np.ptp(v, axis=0).max()) or 1.0
+    q = np.round(v / (span * 10.0 ** -TOL.merge_digits)).astype(np.int64)
+    _, first, inv = np.unique(q, axis=0, return_index=True, return_inverse=True)
+    inv = inv.ravel()
+    v = v[first]
+    f = inv[f]
+    merged = n0 - len(v)
+    # Degenerate: repeated index or (near) zero area.
+    rep = (f[:, 0] == f[:, 1]) | (f[:, 1] == f[:, 2]) | (f[:, 2] == f[:, 0])
+    t = v[f]
+    area = 0.5 * np.linalg.norm(np.cross(t[:, 1] - t[:, 0], t[:, 2] - t[:, 0]), axis=1)
+    med = np.median(area[~rep]) if np.any(~rep) else 0.0
+    keep = ~rep & (area > TOL.degenerate_area_rel * med)
+    f = f[keep]
+    # Duplicate faces (same three vertices in any order).
+    _, uniq = np.unique(np.sort(f, axis=1), axis=0, return_index=True)
+    f = f[np.sort(uniq)]
+    if len(f) == 0:
+        raise InputError("the mesh has no faces left after dropping degenerate ones")
+    used = np.zeros(len(v), dtype=bool)
+    used[f.ravel()] = True
+    remap = np.cumsum(used) - 1
+    v, f = v[used], remap[f]
+    return v, f, merged, m0 - len(f)
+
+
+def _size_warnings(extent: np.ndarray, unit: str, scale: float) -> list[str]:
+    """Warn when the body's size is implausible for a vehicle, naming the likely unit."""
+    length = float(extent.max())
+    if 0.3 <= length <= 30.0:
+        return []
+    raw = length / scale
+    likely = [u for u in LENGTH_UNITS if 1.0 <= raw * length_factor(u) <= 15.0]
+    hint = f"; the file is probably in {likely[0]} (--length-unit {likely[0]})" if likely else ""
+    return [f"the body is {length:,.4g} m long with --length-unit {unit}, which is not a vehicle's size{hint}"]

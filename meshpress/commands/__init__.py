@@ -1,0 +1,1 @@
+"""One module per CLI command: ``add_parser(subparsers)`` and ``run(args)``."""

@@ -1,0 +1,52 @@
+"""``meshpress demo``: the whole job on the bundled, invented sample data."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from ..errors import InputError
+
+#: How the bundled sample was made (see scripts/make_samples.py): mm, y up, forward -z.
+DEMO_SETTINGS = dict(length_unit="mm", up="+y", forward="-z", front_axle=-250.0, rear_axle=2350.0)
+DEMO_SPEED_KMH = 100.0
+
+
+def sample_dir() -> Path:
+    """The bundled sample_meshes/ folder (next to the package in a source checkout)."""
+    here = Path(__file__).resolve().parents[2] / "sample_meshes"
+    if not (here / "coupe.stl").is_file():
+        raise InputError(f"the sample data is missing from {here}; install meshpress from a source checkout "
+                         "(pip install -e .)")
+    return here
+
+
+def add_parser(sub):
+    p = sub.add_parser("demo", help="run the whole job on the bundled sample body and taps (invented data)",
+                       description="Load the bundled sample coupe (invented demo data), put its 57 taps on it, "
+                                   "build the pressure field and print the loads; write the JSON to --out.")
+    p.add_argument("--out", default="meshpress-demo", metavar="DIR", help="output folder (default meshpress-demo)")
+    p.add_argument("--scan", action="store_true", help="use the scan-like sample (open underbody, holes, noise)")
+    p.add_argument("--quiet", action="store_true", help="no progress display")
+    p.set_defaults(run=run)
+    return p
+
+
+def run(args) -> int:
+    from ..analysis import resolve_q, run_loads
+    from ..progress import Progress
+    from ..results import write_json
+    from ..textreport import format_result
+
+    d = sample_dir()
+    mesh = d / ("coupe_scan.stl" if args.scan else "coupe.stl")
+    taps = d / "coupe_taps.csv"
+    progress = Progress(enabled=False if args.quiet else None)
+    q = resolve_q(speed=DEMO_SPEED_KMH / 3.6)
+    print(f"meshpress demo: {mesh.name} with {taps.name} at {DEMO_SPEED_KMH:g} km/h (INVENTED DEMO DATA)\n")
+    result = run_loads(mesh, taps, q=q, progress=progress, **DEMO_SETTINGS)
+    print(format_result(result))
+    out = Path(args.out)
+    out.mkdir(parents=True, exist_ok=True)
+    write_json(result, out / "loads.json")
+    print(f"\n  wrote {out / 'loads.json'}")
+    return 0

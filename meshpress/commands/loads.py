@@ -1,0 +1,55 @@
+"""``meshpress loads MESH TAPS``: the main job on one set of readings."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from .options import add_body_options, add_field_options, add_flow_options, max_distance_m, method_settings, speed_mps
+
+
+def add_parser(sub):
+    p = sub.add_parser("loads", help="integrate tap pressures over a body into loads",
+                       description="Put the taps on the body, build the pressure field and integrate it into "
+                                   "lift, drag, side force, pitching moment and the axle split.")
+    p.add_argument("mesh", help="surface mesh (STL, OBJ, PLY, OFF, GLB/GLTF, VTK/VTU/VTP, ...)")
+    p.add_argument("taps", help="tap table, CSV or .xlsx: tap, x, y, z and p or cp [, side]")
+    add_body_options(p)
+    add_flow_options(p)
+    add_field_options(p)
+    p.add_argument("--json", metavar="OUT", help="write the result as JSON to OUT")
+    p.add_argument("--quiet", action="store_true", help="no progress display")
+    p.set_defaults(run=run)
+    return p
+
+
+def run(args) -> int:
+    from ..analysis import resolve_q, run_loads
+    from ..progress import Progress
+    from ..results import write_json
+    from ..textreport import format_result
+
+    progress = Progress(enabled=False if args.quiet else None)
+    q = resolve_q(args.q, speed_mps(args.speed), args.air_density)
+    if args.json:
+        _check_output(args.json, (args.mesh, args.taps))
+    result = run_loads(
+        args.mesh, args.taps, length_unit=args.length_unit, up=args.up, forward=args.forward,
+        front_axle=args.front_axle, rear_axle=args.rear_axle, ground=args.ground,
+        pressure_unit=args.pressure_unit, max_tap_distance=max_distance_m(args.max_tap_distance, args.length_unit),
+        method=args.method, method_settings=method_settings(args), q=q, ref_area=args.ref_area,
+        p_ref=args.p_ref, progress=progress,
+    )
+    print(format_result(result))
+    if args.json:
+        write_json(result, args.json, protect=(args.mesh, args.taps))
+        print(f"\n  wrote {args.json}")
+    return 0
+
+
+def _check_output(out, inputs):
+    from ..errors import InputError
+
+    o = Path(out)
+    for i in inputs:
+        if o.exists() and Path(i).exists() and o.resolve() == Path(i).resolve():
+            raise InputError(f"refusing to write {out!r}: it is one of the input files")

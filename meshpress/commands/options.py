@@ -1,0 +1,70 @@
+"""Options shared by commands that read a body and taps, and their parsing."""
+
+from __future__ import annotations
+
+from ..errors import InputError
+from ..tolerances import TOL
+from ..units import LENGTH_UNITS, PRESSURE_UNITS, SPEED_UNITS, length_factor, parse_quantity, speed_factor
+
+
+def add_body_options(p):
+    g = p.add_argument_group("body")
+    g.add_argument("--length-unit", default="m", help="unit of the mesh and tap coordinates: "
+                   + ", ".join(LENGTH_UNITS) + " (default m)")
+    g.add_argument("--up", default="+z", help="mesh axis that points up, signed (default +z)")
+    g.add_argument("--forward", default="-x",
+                   help="mesh axis that points forward, signed (default -x); write --forward=-z")
+    g.add_argument("--front-axle", type=float, metavar="X",
+                   help="front axle coordinate on the mesh's forward axis, mesh unit")
+    g.add_argument("--rear-axle", type=float, metavar="X",
+                   help="rear axle coordinate on the mesh's forward axis, mesh unit")
+    g.add_argument("--ground", type=float, metavar="H",
+                   help="ground height on the mesh's up axis, mesh unit (default: lowest point)")
+
+
+def add_flow_options(p):
+    g = p.add_argument_group("flow")
+    g.add_argument("--speed", metavar="V", help="air speed, e.g. 33.3 or '120 km/h' (units: "
+                   + ", ".join(SPEED_UNITS) + "; default m/s)")
+    g.add_argument("--q", type=float, metavar="Q", help="dynamic pressure, Pa")
+    g.add_argument("--air-density", type=float, metavar="RHO",
+                   help="air density for --speed, kg/m3 (default 1.225, ISA sea level)")
+    g.add_argument("--pressure-unit", default="Pa", help="unit of the taps' p column: "
+                   + ", ".join(PRESSURE_UNITS) + " (default Pa)")
+    g.add_argument("--p-ref", type=float, default=0.0,
+                   help="reference pressure subtracted from every face, in the taps' unit (default 0)")
+    g.add_argument("--ref-area", type=float, metavar="A", help="reference area, m2 (default: frontal area)")
+
+
+def add_field_options(p):
+    from ..fields import METHODS
+    from ..fields.rbf import KERNELS
+
+    g = p.add_argument_group("pressure field")
+    g.add_argument("--method", default="rbf", help="field method: " + ", ".join(METHODS) + " (default rbf)")
+    g.add_argument("--kernel", default="thin_plate_spline", help="RBF kernel: " + ", ".join(KERNELS))
+    g.add_argument("--smoothing", type=float, default=0.0, help="RBF smoothing (default 0: exact at taps)")
+    g.add_argument("--max-tap-distance", default=None, metavar="D",
+                   help="largest tap-to-surface distance, mesh unit or with a unit like '25 mm' (default 25 mm)")
+
+
+def speed_mps(text) -> float | None:
+    if text is None:
+        return None
+    value, unit = parse_quantity(text, "m/s", SPEED_UNITS, "speed", "--speed: ")
+    return value * speed_factor(unit)
+
+
+def max_distance_m(text, length_unit) -> float:
+    if text is None:
+        return TOL.max_tap_distance_m
+    value, unit = parse_quantity(text, length_unit, LENGTH_UNITS, "length", "--max-tap-distance: ")
+    if value <= 0:
+        raise InputError(f"--max-tap-distance must be positive, got {text}")
+    return value * length_factor(unit)
+
+
+def method_settings(args) -> dict:
+    if args.method == "rbf":
+        return {"kernel": args.kernel, "smoothing": args.smoothing}
+    return {}

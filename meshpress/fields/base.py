@@ -1,0 +1,76 @@
+"""The one interface every pressure-field method follows.
+
+A method stores its settings in ``__init__``, learns from the taps in
+:meth:`Field.fit`, and gives values on the surface with
+:meth:`Field.face_values` (what the integrator uses) or :meth:`Field.at_points`.
+Methods are registered by name in :mod:`meshpress.fields` so the CLI and API can
+pick them with ``method="..."``.
+"""
+
+from __future__ import annotations
+
+from abc import ABC, abstractmethod
+
+import numpy as np
+
+
+class NotFittedError(RuntimeError):
+    """A field was asked for values before :meth:`Field.fit`."""
+
+
+class Field(ABC):
+    """A pressure (or Cp) field over a body, interpolated from taps.
+
+    Attributes (after fit)
+    ----------------------
+    body_ : Body
+    taps_ : ProjectedTaps
+    warnings_ : list of str
+        Doubts met while fitting (e.g. a polynomial degree lowered).
+    """
+
+    #: Short name used on the command line (``--method NAME``).
+    name: str = ""
+
+    def fit(self, body, taps, *, progress=None) -> "Field":
+        """Learn the field from taps placed on ``body``.
+
+        Parameters
+        ----------
+        body : Body
+        taps : ProjectedTaps
+            Tap positions on the surface (m) and values (Pa or Cp).
+        progress : Progress, optional
+
+        Returns
+        -------
+        self
+        """
+        self.body_ = body
+        self.taps_ = taps
+        self.warnings_ = []
+        self._fit(body, taps, progress)
+        return self
+
+    @abstractmethod
+    def _fit(self, body, taps, progress) -> None: ...
+
+    def _check(self):
+        if not hasattr(self, "taps_"):
+            raise NotFittedError(f"{type(self).__name__} is not fitted; call fit(body, taps) first")
+
+    def face_values(self, *, progress=None) -> np.ndarray:
+        """(m,) float: the field's mean value on every face of the fitted body."""
+        self._check()
+        return self._face_values(progress)
+
+    @abstractmethod
+    def _face_values(self, progress) -> np.ndarray: ...
+
+    def at_points(self, points: np.ndarray) -> np.ndarray:
+        """(k,) float: the field at surface points (k, 3) m, where the method allows it."""
+        raise NotImplementedError(f"{self.name} gives values on the body's faces only")
+
+    def describe(self) -> str:
+        """One line naming the method and its settings, for reports."""
+        return self.name

@@ -1,0 +1,56 @@
+"""Progress display for long steps: shown on a terminal only, silenced by --quiet.
+
+Backed by rich.  Steps are either spinners (``step``) or bars over a known
+number of chunks (``track``).
+"""
+
+from __future__ import annotations
+
+import sys
+from contextlib import contextmanager
+
+
+class Progress:
+    """Progress on stderr.
+
+    Parameters
+    ----------
+    enabled : bool, optional
+        Default: only when stderr is a terminal.
+    """
+
+    def __init__(self, enabled: bool | None = None):
+        self.enabled = sys.stderr.isatty() if enabled is None else bool(enabled)
+        self._console = None
+
+    def _get_console(self):
+        if self._console is None:
+            from rich.console import Console
+
+            self._console = Console(stderr=True)
+        return self._console
+
+    @contextmanager
+    def step(self, label: str):
+        """Spinner around a step of unknown length."""
+        if not self.enabled:
+            yield
+            return
+        with self._get_console().status(label + " ..."):
+            yield
+
+    def track(self, iterable, total: int, label: str):
+        """Iterate with a progress bar over ``total`` items."""
+        if not self.enabled:
+            yield from iterable
+            return
+        from rich.progress import BarColumn, Progress as RichProgress, TextColumn, TimeRemainingColumn
+
+        with RichProgress(
+            TextColumn("{task.description}"), BarColumn(), TextColumn("{task.percentage:>3.0f}%"),
+            TimeRemainingColumn(), console=self._get_console(), transient=True,
+        ) as bar:
+            task = bar.add_task(label, total=total)
+            for item in iterable:
+                yield item
+                bar.advance(task)

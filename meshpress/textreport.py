@@ -1,0 +1,42 @@
+"""The readable table printed by ``meshpress loads`` and ``meshpress demo``."""
+
+from __future__ import annotations
+
+from .results import CAUTION, LoadResult
+
+
+def _fmt(v, spec):
+    return "n/a" if v is None else format(v, spec)
+
+
+def format_result(r: LoadResult) -> str:
+    """Plain-text summary of a result: figures, inputs, mesh and warnings."""
+    m = r.mesh or {}
+    lines = ["meshpress loads", ""]
+    rows = [
+        ("lift (+ up)", _fmt(r.lift_N, ",.1f"), "N", "CL", _fmt(r.CL, "+.3f")),
+        ("drag (+ rearward)", _fmt(r.drag_N, ",.1f"), "N", "CD", _fmt(r.CD, "+.3f")),
+        ("side force (+ right)", _fmt(r.side_N, ",.1f"), "N", "CS", _fmt(r.CS, "+.3f")),
+        ("pitching moment (+ nose up)", _fmt(r.pitch_moment_Nm, ",.1f"), "N m", "CPM", _fmt(r.CPM, "+.3f")),
+        ("front axle lift", _fmt(r.front_lift_N, ",.1f"), "N", "CLF", _fmt(r.CLF, "+.3f")),
+        ("rear axle lift", _fmt(r.rear_lift_N, ",.1f"), "N", "CLR", _fmt(r.CLR, "+.3f")),
+    ]
+    for name, val, unit, cname, cval in rows:
+        lines.append(f"  {name:<29}{val:>12} {unit:<4}   {cname:<4}{cval:>8}")
+    lines.append(f"  {'front share of lift':<29}{_fmt(None if r.front_share is None else 100 * r.front_share, '.1f'):>12} %")
+    lines.append("")
+    lines.append(f"  q {_fmt(r.q_Pa, ',.1f')} Pa   reference area {r.ref_area_m2:.3f} m2 ({r.ref_area_source})")
+    lines.append(f"  wheelbase {_fmt(r.wheelbase_m, '.3f')} m   field: {r.method}   taps: {len(r.taps)}")
+    if r.taps:
+        far = max(r.taps, key=lambda t: t["distance_m"])
+        lines.append(f"  largest tap projection: {far['distance_m'] * 1000:.1f} mm ({far['name']})")
+    if m:
+        lines.append(
+            f"  mesh: {m['faces']:,} faces, {m['area_m2']:.2f} m2, "
+            f"{'watertight' if m['watertight'] else 'open'}, {m['holes']} holes, closure {m['closure']:.2e}"
+        )
+    if r.warnings:
+        lines.append("")
+        lines += [f"  warning: {w}" for w in r.warnings]
+    lines += ["", f"  Caution: {CAUTION}"]
+    return "\n".join(lines)
