@@ -71,6 +71,47 @@ class Field(ABC):
         """(k,) float: the field at surface points (k, 3) m, where the method allows it."""
         raise NotImplementedError(f"{self.name} gives values on the body's faces only")
 
+    def loo_residuals(self) -> np.ndarray:
+        """(n,) float: leave-one-out residuals at the taps, value minus prediction.
+
+        Generic version: refit without each tap in turn and predict at it (n
+        refits).  Methods with a closed form (RBF: Rippa 1999) override this.
+        """
+        self._check()
+        taps = self.taps_
+        out = np.empty(len(taps))
+        keep = np.ones(len(taps), dtype=bool)
+        for i in range(len(taps)):
+            keep[:] = True
+            keep[i] = False
+            sub = _subset(taps, keep)
+            other = type(self)(**self.get_params()).fit(self.body_, sub)
+            out[i] = taps.values[i] - other.at_points(taps.points[i : i + 1])[0]
+        return out
+
+    def get_params(self) -> dict:
+        """The constructor settings (scikit-learn style): attributes named like __init__'s arguments."""
+        import inspect
+
+        names = [p for p in inspect.signature(type(self).__init__).parameters if p != "self"]
+        return {n: getattr(self, n) for n in names}
+
     def describe(self) -> str:
         """One line naming the method and its settings, for reports."""
         return self.name
+
+
+def _subset(taps, keep):
+    """ProjectedTaps restricted to the rows where ``keep`` is True."""
+    from dataclasses import replace
+
+    return replace(
+        taps,
+        names=[n for n, k in zip(taps.names, keep) if k],
+        raw_points=taps.raw_points[keep],
+        points=taps.points[keep],
+        faces=taps.faces[keep],
+        barycentric=taps.barycentric[keep],
+        distance=taps.distance[keep],
+        values=taps.values[keep],
+    )
