@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 
 from . import __version__
@@ -129,6 +131,23 @@ def run_loads(mesh, taps_file, *, length_unit="m", up="+z", forward="-x", front_
 
     Parameters are those of the functions named; ``max_tap_distance`` in m.
     """
+    return run_loads_parts(**{k: v for k, v in locals().items()}).result
+
+
+@dataclass
+class LoadRun:
+    """What :func:`run_loads_parts` made on the way: for reports and views, which show more than the result."""
+
+    body: Body
+    taps: ProjectedTaps
+    field: object
+    result: LoadResult
+
+
+def run_loads_parts(mesh, taps_file, *, length_unit="m", up="+z", forward="-x", front_axle=None, rear_axle=None,
+                    ground=None, pressure_unit="Pa", max_tap_distance=TOL.max_tap_distance_m, method="rbf",
+                    method_settings=None, q=None, ref_area=None, p_ref=0.0, progress=None) -> LoadRun:
+    """:func:`run_loads`, keeping the body, the projected taps and the fitted field."""
     progress = progress or Progress(enabled=False)
     body = load_body(mesh, length_unit=length_unit, up=up, forward=forward, front_axle=front_axle,
                      rear_axle=rear_axle, ground=ground, progress=progress)
@@ -138,4 +157,4 @@ def run_loads(mesh, taps_file, *, length_unit="m", up="+z", forward="-x", front_
     field = make_field(method, **(method_settings or {}))
     result = compute_loads(body, projected, field, q=q, ref_area=ref_area, p_ref=p_ref, progress=progress)
     result.inputs["taps"] = str(taps_file)
-    return result
+    return LoadRun(body, projected, field, result)
