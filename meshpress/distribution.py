@@ -94,19 +94,36 @@ class LiftDistribution:
         return float(np.interp(x, self.edges_m, self.cumulative))
 
 
-def lift_distribution(centroids, area_vectors, face_values, *, p_ref=0.0, scale=1.0, n_stations=80,
-                      edges=None) -> LiftDistribution:
-    """Lift along x by summing face forces into stations of equal length.
+def _tent_cdf(x0, x1, x2, e):
+    """Share of a triangle's area with x below ``e``; its corners' x sorted as x0 <= x1 <= x2.
 
-    ``dL/dx = sum over faces whose centroid lies in the station of -(p - p_ref) n_z dA, divided by its
-    length``.  The running sum from the nose ends at the total lift exactly.  A slab of a closed body
-    cut by planes x = const carries the lift of its own skin (the cut faces are vertical, so they carry
-    no lift); under hydrostatic pressure that is rho g times the slab's volume (Archimedes, slab by slab).
+    The area of a triangle per unit x is a tent: rising linearly from x0 to x1, falling to x2, so
+    the share is ``(e - x0)^2 / ((x2 - x0)(x1 - x0))`` up to x1 and ``1 - (x2 - e)^2 / ((x2 - x0)(x2 - x1))``
+    after it.
+    """
+    span = x2 - x0
+    with np.errstate(divide="ignore", invalid="ignore"):
+        a = (e - x0) ** 2 / (span * (x1 - x0))
+        b = 1.0 - (x2 - e) ** 2 / (span * (x2 - x1))
+    out = np.where(e <= x1, a, b)
+    return np.clip(np.nan_to_num(out, nan=0.5), 0.0, 1.0)
+
+
+def lift_distribution(triangles, area_vectors, face_values, *, p_ref=0.0, scale=1.0, n_stations=80,
+                      edges=None) -> LiftDistribution:
+    """Lift along x: the face forces summed over stations of equal length.
+
+    Each face carries ``dF_z = -(p - p_ref) n_z dA`` spread over its own x-extent as its area is
+    (a tent between its corners' x), so a face cut by a station edge shares its lift between the two
+    stations exactly and the running sum is the exact lift ahead of each edge for face-constant
+    pressure; it ends at the total lift.  A slab of a closed body cut by planes x = const carries the
+    lift of its own skin (the cut faces are vertical and carry no lift); under hydrostatic pressure
+    that is rho g times the slab's volume (Archimedes, slab by slab), a check with an exact answer.
 
     Parameters
     ----------
-    centroids : (m, 3) float
-        Face centroids, m.
+    triangles : (m, 3, 3) float
+        Face corners, m.
     area_vectors : (m, 3) float
         Outward n dA, m2.
     face_values : (m,) float
@@ -124,18 +141,25 @@ def lift_distribution(centroids, area_vectors, face_values, *, p_ref=0.0, scale=
     -------
     LiftDistribution
     """
-    x = np.asarray(centroids, float)[:, 0]
+    xs = np.sort(np.asarray(triangles, float)[:, :, 0], axis=1)
     fz = scale * face_forces(area_vectors, face_values, p_ref)[:, 2]
     if edges is None:
-        lo, hi = float(x.min()), float(x.max())
-        pad = 1e-9 * max(hi - lo, 1.0)
-        edges = np.linspace(lo - pad, hi + pad, int(n_stations) + 1)
+        lo, hi = float(xs[:, 0].min()), float(xs[:, 2].max())
+        edges = np.linspace(lo, hi, int(n_stations) + 1)
     edges = np.asarray(edges, float)
     if edges.ndim != 1 or len(edges) < 2 or np.any(np.diff(edges) <= 0):
         raise ValueError("edges must be an increasing 1D array of at least 2 stations")
-    idx = np.clip(np.searchsorted(edges, x, side="right") - 1, 0, len(edges) - 2)
-    per = np.bincount(idx, weights=fz, minlength=len(edges) - 1)
-    cum = np.concatenate([[0.0], np.cumsum(per)])
+    # Faces wholly ahead of an edge count in full (sorted cumulative sum); faces it cuts, in part.
+    order = np.argsort(xs[:, 2])
+    ahead = np.concatenate([[0.0], np.cumsum(fz[order])])
+    cum = ahead[np.searchsorted(xs[order, 2], edges, side="right")]
+    for k, e in enumerate(edges):
+        cut = np.flatnonzero((xs[:, 0] < e) & (xs[:, 2] > e))
+        if len(cut):
+            t = xs[cut]
+            cum[k] += float(_tent_cdf(t[:, 0], t[:, 1], t[:, 2], e) @ fz[cut])
+    # Faces behind the last edge or ahead of the first (when edges are given) are outside the stations.
+    per = np.diff(cum)
     return LiftDistribution(edges, 0.5 * (edges[1:] + edges[:-1]), per / np.diff(edges), cum)
 
 
@@ -148,7 +172,7 @@ class Section:
     x_m, z_m : (k,) float
         Midpoints of the cut segments, m, sorted by x.
     values : (k,) float
-        Field value of the face each segment crosses.
+        Field at the segment midpoints.
     upper : (k,) bool
         True where that face's outward normal points up.
     faces : (k,) int
@@ -161,7 +185,7 @@ class Section:
     faces: np.ndarray
 
 
-def section_at_y(vertices, faces, face_normals, face_values, y=0.0) -> Section:
+def section_at_y(vertices, faces, face_normals, vertex_values, y=0.0) -> Section:
     """Cut the surface with the plane ``y`` (m) and read the field along the cut.
 
     Parameters
@@ -169,7 +193,8 @@ def section_at_y(vertices, faces, face_normals, face_values, y=0.0) -> Section:
     vertices : (n, 3) float
     faces : (m, 3) int
     face_normals : (m, 3) float
-    face_values : (m,) float
+    vertex_values : (n,) float
+        Field at the vertices; read along each cut edge by linear interpolation.
     y : float
         Plane position, m (0: the centre line).
     """
@@ -181,7 +206,9 @@ def section_at_y(vertices, faces, face_normals, face_values, y=0.0) -> Section:
     s[s == 0] = 1  # a vertex on the plane counts as the positive side, so each crossing is found once
     cross = np.flatnonzero((s.min(axis=1) < 0) & (s.max(axis=1) > 0))
     # Each crossed triangle has exactly two edges whose ends lie on opposite sides: average their cuts.
+    vv = np.asarray(vertex_values, float)
     acc = np.zeros((len(cross), 3))
+    val = np.zeros(len(cross))
     cnt = np.zeros(len(cross))
     for a, b in ((0, 1), (1, 2), (2, 0)):
         ia, ib = f[cross, a], f[cross, b]
@@ -189,9 +216,10 @@ def section_at_y(vertices, faces, face_normals, face_values, y=0.0) -> Section:
         m = sa != sb
         t = d[ia[m]] / (d[ia[m]] - d[ib[m]])
         acc[m] += v[ia[m]] + t[:, None] * (v[ib[m]] - v[ia[m]])
+        val[m] += vv[ia[m]] + t * (vv[ib[m]] - vv[ia[m]])
         cnt[m] += 1
     pts = acc / np.maximum(cnt, 1)[:, None]
+    val = val / np.maximum(cnt, 1)
     order = np.argsort(pts[:, 0], kind="stable")
     fc = cross[order]
-    return Section(pts[order, 0], pts[order, 2], np.asarray(face_values, float)[fc],
-                   np.asarray(face_normals)[fc, 2] > 0, fc)
+    return Section(pts[order, 0], pts[order, 2], val[order], np.asarray(face_normals)[fc, 2] > 0, fc)

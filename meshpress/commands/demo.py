@@ -23,16 +23,17 @@ def sample_dir() -> Path:
 def add_parser(sub):
     p = sub.add_parser("demo", help="run the whole job on the bundled sample body and taps (invented data)",
                        description="Load the bundled sample coupe (invented demo data), put its 57 taps on it, "
-                                   "build the pressure field and print the loads; write the JSON to --out.")
+                                   "build the pressure field and print the loads; write the JSON and a report (report.html) to --out.")
     p.add_argument("--out", default="meshpress-demo", metavar="DIR", help="output folder (default meshpress-demo)")
     p.add_argument("--scan", action="store_true", help="use the scan-like sample (open underbody, holes, noise)")
+    p.add_argument("--no-report", action="store_true", help="skip the HTML report and pictures (faster)")
     p.add_argument("--quiet", action="store_true", help="no progress display")
     p.set_defaults(run=run)
     return p
 
 
 def run(args) -> int:
-    from ..analysis import resolve_q, run_loads
+    from ..analysis import resolve_q, run_loads_parts
     from ..progress import Progress
     from ..results import write_json
     from ..textreport import format_result
@@ -43,10 +44,19 @@ def run(args) -> int:
     progress = Progress(enabled=False if args.quiet else None)
     q = resolve_q(speed=DEMO_SPEED_KMH / 3.6)
     print(f"meshpress demo: {mesh.name} with {taps.name} at {DEMO_SPEED_KMH:g} km/h (INVENTED DEMO DATA)\n")
-    result = run_loads(mesh, taps, q=q, progress=progress, **DEMO_SETTINGS)
+    run = run_loads_parts(mesh, taps, q=q, progress=progress, **DEMO_SETTINGS)
+    result = run.result
     print(format_result(result))
     out = Path(args.out)
     out.mkdir(parents=True, exist_ok=True)
     write_json(result, out / "loads.json")
     print(f"\n  wrote {out / 'loads.json'}")
+    if not args.no_report:
+        from ..report import write_report
+
+        files = write_report(run, out, protect=(mesh, taps), progress=progress,
+                             title=f"meshpress demo: {mesh.name}",
+                             demo_note="INVENTED DEMO DATA: a made-up coupe and made-up readings, to show what "
+                                       "meshpress does. Not a measurement of any car.")
+        print(f"  wrote {files.html} (open it in a browser) and the files beside it")
     return 0

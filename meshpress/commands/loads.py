@@ -17,13 +17,15 @@ def add_parser(sub):
     add_flow_options(p)
     add_field_options(p)
     p.add_argument("--json", metavar="OUT", help="write the result as JSON to OUT")
+    p.add_argument("--report", metavar="DIR", help="write a shareable report to DIR: report.html (self-contained), "
+                   "loads.json, body_field.vtp, taps.csv and the pictures")
     p.add_argument("--quiet", action="store_true", help="no progress display")
     p.set_defaults(run=run)
     return p
 
 
 def run(args) -> int:
-    from ..analysis import resolve_q, run_loads
+    from ..analysis import resolve_q, run_loads_parts
     from ..progress import Progress
     from ..results import write_json
     from ..textreport import format_result
@@ -32,17 +34,23 @@ def run(args) -> int:
     q = resolve_q(args.q, speed_mps(args.speed), args.air_density)
     if args.json:
         _check_output(args.json, (args.mesh, args.taps))
-    result = run_loads(
+    run = run_loads_parts(
         args.mesh, args.taps, length_unit=args.length_unit, up=args.up, forward=args.forward,
         front_axle=args.front_axle, rear_axle=args.rear_axle, ground=args.ground,
         pressure_unit=args.pressure_unit, max_tap_distance=max_distance_m(args.max_tap_distance, args.length_unit),
         method=args.method, method_settings=method_settings(args), q=q, ref_area=args.ref_area,
         p_ref=args.p_ref, progress=progress,
     )
+    result = run.result
     print(format_result(result))
     if args.json:
         write_json(result, args.json, protect=(args.mesh, args.taps))
         print(f"\n  wrote {args.json}")
+    if args.report:
+        from ..report import write_report  # pyvista and matplotlib load only here
+
+        files = write_report(run, args.report, protect=(args.mesh, args.taps), progress=progress)
+        print(f"\n  wrote {files.html} (open it in a browser) and the files beside it")
     return 0
 
 
