@@ -42,7 +42,7 @@ BACKGROUND = ("#f3efe6", "#dcd6ca")  # bottom, top
 GROUND = "#c9c2b4"
 INK = "#2b2a27"
 #: Faces above which a decimated copy is drawn (the field is carried over by nearest vertex).
-MAX_RENDER_FACES = 400_000
+MAX_RENDER_FACES = 200_000
 
 
 @dataclass
@@ -134,18 +134,34 @@ def body_polydata(body, point_values=None, cell_values=None, *, max_faces=MAX_RE
             mesh.cell_data[k] = v
     if body.n_faces <= max_faces:
         return mesh, False
+    small = _cluster(mesh, body, max_faces)
+    # Point data follow the nearest original vertex; the view draws point data only.
     from scipy.spatial import cKDTree
 
-    small = mesh.decimate(1.0 - max_faces / body.n_faces)
-    # Point data follow the nearest original vertex; cell data are dropped (the view draws point data).
     _, near = cKDTree(np.asarray(body.vertices)).query(np.asarray(small.points))
-    for k in list(small.point_data):
-        del small.point_data[k]
-    for k in list(small.cell_data):
-        del small.cell_data[k]
     for k, v in (point_values or {}).items():
         small.point_data[k] = np.asarray(v)[near]
     return small, True
+
+
+def _cluster(mesh, body, max_faces):
+    """A copy with about ``max_faces`` faces by vertex clustering (vtkQuadricClustering: Lindstrom,
+    "Out-of-core simplification of large polygonal models", SIGGRAPH 2000): one pass, fast on a
+    million faces, where quadric edge collapse takes tens of seconds."""
+    from vtkmodules.vtkFiltersCore import vtkQuadricClustering
+
+    import pyvista as pv
+
+    ext = np.ptp(body.vertices, axis=0)
+    # A surface crossing cells of size h fills about area / h^2 of them, with about 2 faces each.
+    h = (body.area / (0.5 * max_faces)) ** 0.5
+    div = np.maximum(1, np.ceil(ext / h)).astype(int)
+    f = vtkQuadricClustering()
+    f.SetInputData(pv.PolyData(mesh.points, mesh.faces))
+    f.SetNumberOfDivisions(*[int(d) for d in div])
+    f.SetUseInputPoints(True)  # keep original vertices, so each carries its own field value
+    f.Update()
+    return pv.wrap(f.GetOutput())
 
 
 def _cmap():
@@ -206,13 +222,18 @@ class BodyView:
         pl = pv.Plotter(off_screen=self.off_screen, window_size=self.size, lighting="none")
         pl.set_background(BACKGROUND[0], top=BACKGROUND[1])
         point_vals = np.asarray(body.vertex_faces_matrix @ self.field.faces)
-        mesh, self.decimated = body_polydata(body, {"value": point_vals}, max_faces=self.max_faces)
+        # Vertex normals from the body's outward face normals (area-weighted), carried to a decimated
+        # copy like the field: shading then follows the real surface, not the copy's coarser facets.
+        nrm = np.asarray(body.vertex_faces_matrix @ body.face_normals)
+        nrm /= np.maximum(np.linalg.norm(nrm, axis=1), 1e-12)[:, None]
+        mesh, self.decimated = body_polydata(body, {"value": point_vals, "Normals": nrm}, max_faces=self.max_faces)
+        mesh.point_data.active_normals_name = "Normals"
         cmap = _cmap()
         lim = self.field.limit
         bar = dict(title=self.field.label, vertical=False, position_x=0.22, position_y=0.035, width=0.56,
                    height=0.07, n_labels=5, fmt="%+.2f" if lim < 10 else "%+.0f", color=INK,
-                   title_font_size=15, label_font_size=13, font_family="courier", shadow=False)
-        pl.add_mesh(mesh, scalars="value", cmap=cmap, clim=(-lim, lim), smooth_shading=True,
+                   title_font_size=20, label_font_size=17, font_family="courier", shadow=False)
+        pl.add_mesh(mesh, scalars="value", cmap=cmap, clim=(-lim, lim), smooth_shading=False, interpolation="gouraud",
                     ambient=0.28, diffuse=0.72, specular=0.12, specular_power=18, scalar_bar_args=bar,
                     show_scalar_bar=True, name="body")
         lo, hi = body.vertices.min(axis=0), body.vertices.max(axis=0)
@@ -248,7 +269,8 @@ class BodyView:
         # Soft key light from the upper front left, fill from the right, and a headlight.
         pl.add_light(pv.Light(position=(-2.0, -2.0, 3.0), light_type="scene light", intensity=0.75))
         pl.add_light(pv.Light(position=(2.0, 2.5, 1.0), light_type="scene light", intensity=0.35))
-        pl.add_light(pv.Light(light_type="headlight", intensity=0.35))
+        pl.add_light(pv.Light(position=(0.0, -0.5, -2.0), light_type="scene light", intensity=0.3))  # underbody
+        pl.add_light(pv.Light(light_type="headlight", intensity=0.4))
         self._plotter = pl
         self._centre = 0.5 * (lo + hi)
         return pl
