@@ -62,9 +62,7 @@ def body_dataset(body, face_values, taps=None, kind="p", *, q=None, p_ref=0.0):
         from scipy.spatial import cKDTree
 
         mesh.point_data["tap_distance_m"] = cKDTree(np.asarray(taps.points)).query(body.vertices)[0]
-    if kind == "p" and q is None:
-        mesh.field_data["note"] = ["no q given: Cp left out"]
-    mesh.field_data["frame"] = ["SAE J1594 vehicle frame: x rearward, y right, z up, metres"]
+    # No string field data: meshio (and tools built on it) cannot read string arrays in VTU files.
     return mesh
 
 

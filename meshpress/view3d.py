@@ -6,8 +6,8 @@ only inside these functions, so the loads command starts quickly.
 
 The look: a warm paper-grey background, a ground strip with the axles drawn
 across it, the field on a perceptually uniform diverging colour map centred on
-zero (cmocean "balance", Thyng et al., Oceanography 29(3), 2016: blue for
-suction, red for pressure), taps as outlined beads coloured by their own
+zero (Crameri's "vik", from the Scientific colour maps; Crameri, Shephard &
+Heron, Nature Communications 11, 5444, 2020: blue for suction, red for pressure), taps as outlined beads coloured by their own
 reading, and a horizontal colour bar that names the quantity and its unit.
 """
 
@@ -166,10 +166,10 @@ def _cluster(mesh, body, max_faces):
 
 def _cmap():
     try:
-        import cmocean
+        from cmcrameri import cm
 
-        return cmocean.cm.balance
-    except ImportError:  # pragma: no cover - cmocean is a dependency of the view extra
+        return cm.vik
+    except ImportError:  # pragma: no cover - cmcrameri is a dependency of the view extra
         return "coolwarm"
 
 

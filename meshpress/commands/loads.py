@@ -34,6 +34,10 @@ def run(args) -> int:
     q = resolve_q(args.q, speed_mps(args.speed), args.air_density)
     if args.json:
         _check_output(args.json, (args.mesh, args.taps))
+    if args.report and Path(args.report).exists() and not Path(args.report).is_dir():
+        from ..errors import InputError
+
+        raise InputError(f"--report {args.report!r} is a file; give a folder to write the report into")
     run = run_loads_parts(
         args.mesh, args.taps, length_unit=args.length_unit, up=args.up, forward=args.forward,
         front_axle=args.front_axle, rear_axle=args.rear_axle, ground=args.ground,
