@@ -211,6 +211,7 @@ def test_decimated_copy_for_big_meshes_keeps_the_field():
     np.testing.assert_allclose(small.point_data["value"], np.asarray(small.points)[:, 2], atol=1e-12)
 
 
+@pytest.mark.slow
 def test_loads_without_report_does_not_import_the_display_libraries(samples_dir):
     import subprocess
 
