@@ -66,7 +66,7 @@ def body_dataset(body, face_values, taps=None, kind="p", *, q=None, p_ref=0.0):
     return mesh
 
 
-def _replace_into(path: Path, write):
+def replace_into(path: Path, write):
     """Call ``write(tmp_path)`` then move the temporary file onto ``path``."""
     path.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(dir=path.parent, prefix="." + path.stem, suffix=path.suffix)
@@ -96,7 +96,7 @@ def write_body(path, body, face_values, taps=None, kind="p", *, q=None, p_ref=0.
     mesh = body_dataset(body, face_values, taps, kind, q=q, p_ref=p_ref)
     if path.suffix.lower() == ".vtu":
         mesh = mesh.cast_to_unstructured_grid()
-    return _replace_into(path, lambda tmp: mesh.save(tmp, binary=True))
+    return replace_into(path, lambda tmp: mesh.save(tmp, binary=True))
 
 
 TAP_COLUMNS = ("tap", "reading", "reading_unit", "Cp", "p_Pa", "x_given_m", "y_given_m", "z_given_m",

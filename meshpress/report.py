@@ -188,13 +188,13 @@ def write_report(run, out_dir, *, protect=(), progress=None, title=None, demo_no
                    p_ref=result.p_ref, protect=protect)
         write_tap_csv(files.taps, rows, protect=protect)
         if images:
-            from .export import _replace_into
+            from .export import replace_into
 
             (out / "images").mkdir(exist_ok=True)
             for group in ("plots", "views"):
                 for name, png in pics[group].items():
                     p = out / "images" / f"{group[:-1]}_{name}.png"
-                    _replace_into(p, lambda tmp, png=png: Path(tmp).write_bytes(png))
+                    replace_into(p, lambda tmp, png=png: Path(tmp).write_bytes(png))
                     files.images.append(p)
         page = render_html(result, pics, rows, title=title, demo_note=demo_note,
                            written=[files.json.name, files.body.name, files.taps.name]

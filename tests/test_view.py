@@ -248,3 +248,20 @@ def test_colour_map_is_diverging_with_its_lightest_colour_at_zero():
     # Uniform: no step in lightness much larger than the mean step (no hidden bands).
     steps = np.abs(np.diff(L[:lo]))
     assert steps.max() < 3 * steps.mean()
+
+
+@pytest.mark.slow
+def test_view_command_writes_pngs_and_refuses_a_window_without_display(tmp_path, cli, samples_dir):
+    import os
+
+    from PIL import Image
+
+    common = [samples_dir / "coupe.stl", samples_dir / "coupe_taps.csv", "--length-unit", "mm", "--up=+y",
+              "--forward=-z", "--speed", "100 km/h", "--quiet"]
+    out = tmp_path / "v.png"
+    r = cli("view", *common, "--colour", "lift", "--png", out, "--size", "400x250")
+    assert r.returncode == 0, r.stderr
+    _image_is_a_picture(np.asarray(Image.open(out).convert("RGB")), (400, 250))
+    if not (os.environ.get("DISPLAY") or os.environ.get("WAYLAND_DISPLAY")):
+        r = cli("view", *common)
+        assert r.returncode == 2 and r.stderr.startswith("meshpress: error: no display")
