@@ -149,6 +149,7 @@ def residual_plot(names, residuals, *, unit="Cp", size=(8.0, 3.8), label_every=N
     """
     plt = _plt()
     r = np.asarray(residuals, float)
+    names = [_plain(n) for n in names]
     fig, ax = plt.subplots(figsize=size, dpi=110, layout="constrained")
     i = np.arange(len(r))
     ax.bar(i, r, color=np.where(r >= 0, UPPER, LOWER), alpha=0.85, width=0.75, zorder=3)
@@ -167,6 +168,11 @@ def residual_plot(names, residuals, *, unit="Cp", size=(8.0, 3.8), label_every=N
     ax.set_xlim(-0.8, len(r) - 0.2)
     ax.set_ylabel(f"reading \u2212 prediction [{unit}]")
     return fig
+
+
+def _plain(text) -> str:
+    """A user's string shown as typed: '$' would start matplotlib's maths mode."""
+    return str(text).replace("$", r"\$")
 
 
 def png_bytes(fig) -> bytes:

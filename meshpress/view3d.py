@@ -218,7 +218,6 @@ class BodyView:
         import pyvista as pv
 
         body = self.body
-        pv.global_theme.font.family = "courier"
         pl = pv.Plotter(off_screen=self.off_screen, window_size=self.size, lighting="none")
         pl.set_background(BACKGROUND[0], top=BACKGROUND[1])
         point_vals = np.asarray(body.vertex_faces_matrix @ self.field.faces)

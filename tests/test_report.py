@@ -164,3 +164,20 @@ def test_loads_report_option(tmp_path, cli, samples_dir):
     assert r.returncode == 0, r.stderr
     assert (tmp_path / "rep" / "report.html").is_file()
     assert "report.html" in r.stdout
+
+
+def test_report_without_q_or_axles_and_with_awkward_names(tmp_path):
+    # Pa readings, no q, no axles: the report falls back to Pa and says what it left out.
+    from meshpress.analysis import run_loads_parts
+    from meshpress.report import write_report
+
+    mesh, taps = _write_case(tmp_path, "plain.stl")
+    text = taps.read_text().replace("tap,x,y,z,cp", "tap,x,y,z,p").replace('"a&b"', '"$x_1$ and $"')
+    taps.write_text(text)
+    run = run_loads_parts(mesh, taps)
+    files = write_report(run, tmp_path / "out", views=("side",), view_size=(320, 200), images=False)
+    page = files.html.read_text()
+    assert "no --q or --speed given" in page and "no axle positions given" in page
+    assert "p - p_inf [Pa]" in page or "gauge pressure (Pa)" in page
+    assert "$x_1$ and $" in page
+    assert page.count("data:image/png;base64,") == 4
