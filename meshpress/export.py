@@ -81,7 +81,8 @@ def replace_into(path: Path, write):
     return path
 
 
-def _check_not_input(path: Path, protect):
+def check_not_input(path: Path, protect):
+    """Raise InputError when ``path`` is one of the input files ``protect``."""
     for p in protect:
         if p and Path(p).exists() and path.exists() and path.resolve() == Path(p).resolve():
             raise InputError(f"refusing to write {str(path)!r}: it is one of the input files")
@@ -92,7 +93,7 @@ def write_body(path, body, face_values, taps=None, kind="p", *, q=None, p_ref=0.
     path = Path(path)
     if path.suffix.lower() not in VTK_SUFFIXES:
         raise InputError(f"{str(path)!r}: the body file must end in .vtp or .vtu")
-    _check_not_input(path, protect)
+    check_not_input(path, protect)
     mesh = body_dataset(body, face_values, taps, kind, q=q, p_ref=p_ref)
     if path.suffix.lower() == ".vtu":
         mesh = mesh.cast_to_unstructured_grid()

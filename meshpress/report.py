@@ -173,6 +173,10 @@ def write_report(run, out_dir, *, protect=(), progress=None, title=None, demo_no
         from .errors import InputError
 
         raise InputError(f"--report {str(out_dir)!r} is a file, not a folder")
+    from .export import check_not_input
+
+    for name in ("report.html", "loads.json", "body_field.vtp", "taps.csv"):  # before anything is written
+        check_not_input(out / name, protect)
     out.mkdir(parents=True, exist_ok=True)
     pics = report_pictures(run, progress=progress, **picture_kw)
     result, body, taps = run.result, run.body, run.taps

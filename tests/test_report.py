@@ -181,3 +181,16 @@ def test_report_without_q_or_axles_and_with_awkward_names(tmp_path):
     assert "p - p_inf [Pa]" in page or "gauge pressure (Pa)" in page
     assert "$x_1$ and $" in page
     assert page.count("data:image/png;base64,") == 4
+
+
+def test_report_never_overwrites_an_input(tmp_path):
+    from meshpress.analysis import run_loads_parts
+    from meshpress.errors import InputError
+    from meshpress.report import write_report
+
+    mesh, taps = _write_case(tmp_path, "m.stl")
+    run = run_loads_parts(mesh, taps)
+    before = taps.read_text()
+    with pytest.raises(InputError, match="one of the input files"):
+        write_report(run, tmp_path, protect=(mesh, taps))  # the taps file is tmp_path/taps.csv
+    assert taps.read_text() == before and not (tmp_path / "report.html").exists()
