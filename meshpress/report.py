@@ -144,6 +144,13 @@ class _null_step:
         return False
 
 
+def missing_libraries() -> list[str]:
+    """The display libraries the report needs that are not installed (pip install 'meshpress[view]')."""
+    import importlib.util
+
+    return [m for m in ("pyvista", "matplotlib", "PIL", "cmcrameri") if importlib.util.find_spec(m) is None]
+
+
 def write_report(run, out_dir, *, protect=(), progress=None, title=None, demo_note=None, images=True,
                  **picture_kw) -> ReportFiles:
     """Write the report folder (see the module docstring).
@@ -166,15 +173,16 @@ def write_report(run, out_dir, *, protect=(), progress=None, title=None, demo_no
     **picture_kw
         Passed to :func:`report_pictures` (``views``, ``view_size``, ``tap_names``, ``arrows``, ``quantity``).
     """
-    from .export import tap_rows, write_body, write_tap_csv
+    from .errors import InputError
+    from .export import check_not_input, tap_rows, write_body, write_tap_csv
 
     out = Path(out_dir)
     if out.exists() and not out.is_dir():
-        from .errors import InputError
-
         raise InputError(f"--report {str(out_dir)!r} is a file, not a folder")
-    from .export import check_not_input
 
+    missing = missing_libraries()
+    if missing:
+        raise InputError(f"the report needs {', '.join(missing)}: pip install 'meshpress[view]'")
     for name in ("report.html", "loads.json", "body_field.vtp", "taps.csv"):  # before anything is written
         check_not_input(out / name, protect)
     out.mkdir(parents=True, exist_ok=True)

@@ -52,7 +52,11 @@ def run(args) -> int:
     write_json(result, out / "loads.json")
     print(f"\n  wrote {out / 'loads.json'}")
     if not args.no_report:
-        from ..report import write_report
+        from ..report import missing_libraries, write_report
+
+        if missing_libraries():
+            print(f"  no report: it needs {', '.join(missing_libraries())} (pip install 'meshpress[view]')")
+            return 0
 
         files = write_report(run, out, protect=(mesh, taps), progress=progress,
                              title=f"meshpress demo: {mesh.name}",
