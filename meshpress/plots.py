@@ -121,8 +121,9 @@ def lift_distribution_plot(dist, *, per_q=False, axles=None, front_lift=None, re
     ax2.axhline(0.0, color=INK, lw=0.8)
     _axles(ax2, axles, label=False)
     total = dist.cumulative[-1]
-    ax2.annotate(f"total {total:+,.1f} {u2}", (dist.edges_m[-1], total), xytext=(-4, 8),
-                 textcoords="offset points", ha="right", fontsize=9, color=INK)
+    ax2.annotate(f"total {total:+,.1f} {u2}", (dist.edges_m[-1], total), xytext=(-2, -6) if total >= 0 else (-2, 6),
+                 textcoords="offset points", ha="right", va="top" if total >= 0 else "bottom", fontsize=9,
+                 color=INK)
     if axles is not None:
         ahead, behind = dist.at(axles.front_x), total - dist.at(axles.rear_x)
         ax2.plot([axles.front_x, axles.rear_x], [ahead, dist.at(axles.rear_x)], "o", color=INK, ms=4, zorder=4)
@@ -131,8 +132,10 @@ def lift_distribution_plot(dist, *, per_q=False, axles=None, front_lift=None, re
         ax2.annotate(f"behind the rear axle: {behind:+,.1f} {u2}", (axles.rear_x, dist.at(axles.rear_x)),
                      xytext=(-6, -16), textcoords="offset points", ha="right", fontsize=8.5, color=INK)
     if front_lift is not None and rear_lift is not None:
-        ax2.text(0.99, 0.05, f"axle split (moment balance): front {front_lift:+,.1f} N, rear {rear_lift:+,.1f} N",
-                 transform=ax2.transAxes, va="bottom", ha="right", fontsize=8.5, color=INK)
+        ax2.set_title(f"Running total from the nose.  Axle split (moment balance): front {front_lift:+,.1f} N, "
+                      f"rear {rear_lift:+,.1f} N", loc="left", fontsize=9, fontweight="normal")
+    else:
+        ax2.set_title("Running total from the nose", loc="left", fontsize=9, fontweight="normal")
     ax2.set_ylabel(f"lift from the nose [{u2}]")
     ax2.set_xlabel("x, rearward from the axle midpoint [m]")
     return fig

@@ -52,6 +52,10 @@ def run(args) -> int:
     from ..progress import Progress
     from ..view3d import VIEWS, BodyView, has_display
 
+    from ..report import missing_libraries
+
+    if missing_libraries():
+        raise InputError(f"view needs {', '.join(missing_libraries())}: pip install 'meshpress[view]'")
     size = _size(args.size)
     if not args.png and not has_display():
         raise InputError("no display to open a window on; give --png OUT to write a picture instead")
