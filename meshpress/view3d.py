@@ -34,7 +34,7 @@ VIEW_TITLES = {"side": "left side", "top": "top (nose left)", "bottom": "undersi
                "front": "front", "rear": "rear", "three-quarter": "front three-quarter"}
 
 #: Quantities the body can be coloured by: name -> (label, needs).
-ZOOM = {"side": 1.75, "top": 1.45, "bottom": 1.75, "front": 1.9, "rear": 1.9, "three-quarter": 1.35}
+ZOOM = {"side": 1.75, "top": 1.45, "bottom": 1.45, "front": 1.9, "rear": 1.9, "three-quarter": 1.35}
 
 QUANTITIES = ("cp", "p", "normal", "lift")
 
