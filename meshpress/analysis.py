@@ -9,7 +9,9 @@ from .body import Body, load_body
 from .coefficients import ISA_RHO, dynamic_pressure
 from .errors import InputError
 from .fields import make_field
+from .fields.base import Field
 from .integrate import force_and_moment
+from .quadrature import clustered_force_and_moment
 from .progress import Progress
 from .projection import ProjectedTaps, project_taps
 from .results import LoadResult
@@ -26,6 +28,7 @@ def compute_loads(
     ref_area: float | None = None,
     p_ref: float = 0.0,
     frontal_resolution: float = TOL.frontal_resolution_m,
+    quadrature: str = "auto",
     progress: Progress | None = None,
 ) -> LoadResult:
     """Fit a field to the taps and integrate it over the body.
@@ -46,6 +49,13 @@ def compute_loads(
         Reference pressure subtracted everywhere, in the taps' unit (Pa or Cp).
     frontal_resolution : float
         Raster pixel size for the frontal area, m.
+    quadrature : {"auto", "faces", "clusters"}
+        "faces" evaluates the field on every face; "clusters" evaluates it
+        once per cluster of faces (:mod:`meshpress.quadrature`, cells of
+        ``TOL.cluster_cell_m``); "auto" clusters bodies of more than
+        ``TOL.cluster_min_faces`` faces when the method can be evaluated at
+        arbitrary surface points.  ``result.face_values`` is None after
+        clustering; ``result.field`` can still give them.
 
     Returns
     -------
@@ -59,14 +69,31 @@ def compute_loads(
     field = field or make_field("rbf")
     with progress.step(f"fitting {field.name} field"):
         field.fit(body, taps, progress=progress)
-    values = field.face_values(progress=progress)
+    if quadrature not in ("auto", "faces", "clusters"):
+        raise InputError(f"quadrature must be auto, faces or clusters, got {quadrature!r}")
+    pointwise = type(field).at_points is not Field.at_points
+    if quadrature == "clusters" and not pointwise:
+        raise InputError(f"the {field.name} method gives face values only; use quadrature='faces'")
+    use_clusters = quadrature == "clusters" or (
+        quadrature == "auto" and pointwise and body.n_faces > TOL.cluster_min_faces)
     r0 = np.zeros(3)
     warnings = list(body.warnings) + list(field.warnings_)
     if body.axles is None:
         # Ground point under the body's centre: the frame origin when no axles are given.
         warnings.append("no axle positions given: moment taken about the ground under the body's centre; "
                         "axle figures left out")
-    F, M = force_and_moment(body.area_vectors, body.centroids, values, r0, p_ref)
+    if use_clusters:
+        with progress.step("clustering faces"):
+            clusters = body.clusters(TOL.cluster_cell_m)
+        with progress.step("evaluating field"):
+            values = None
+            F, M = clustered_force_and_moment(clusters, field.at_points(clusters.points), r0, p_ref)
+        quad = f"clustered midpoint rule ({len(clusters):,} clusters of {clusters.cell * 1000:g} mm)"
+    else:
+        with progress.step("evaluating field"):
+            values = field.face_values(progress=progress)
+        F, M = force_and_moment(body.area_vectors, body.centroids, values, r0, p_ref)
+        quad = "every face"
     if taps.kind == "p":
         force, moment = F, M
         per_q = (F / q, M / q) if q else (None, None)
@@ -104,7 +131,9 @@ def compute_loads(
         taps=tap_rows,
         mesh=body.report.to_dict() if body.report else {},
         inputs={"mesh": body.source, "meshpress": __version__},
+        quadrature=quad,
         face_values=values,
+        field=field,
     )
 
 
