@@ -102,6 +102,7 @@ def _bad(tmp_path, sample):
     ]
 
 
+@pytest.mark.slow
 def test_every_bad_input_is_one_line_and_status_2(tmp_path, sample):
     before = sample[1].read_bytes()
     for args, msg in _bad(tmp_path, sample):
