@@ -8,9 +8,10 @@ so the two skins of a thin panel never share a cluster); each cluster's sums
 ``sum a_f`` and ``sum c_f x a_f`` are taken once, and the field is evaluated
 once, at the cluster's area-weighted centroid.  For a flat cluster the
 first-order error term ``sum_f a_f grad p . (c_f - c_bar)`` vanishes exactly,
-because ``sum_f dA_f (c_f - c_bar) = 0``; what remains is second order in the
-cell size and proportional to the curvature inside the cell (the midpoint rule
-on each cluster).  docs/performance.md gives the measured difference from
+because ``sum_f dA_f (c_f - c_bar) = 0``; what remains in the force is second
+order in the cell size and proportional to the curvature inside the cell (the
+midpoint rule on each cluster).  The moment also carries the second-order term
+``sum_f (grad p . d_f) d_f x a_f`` with ``d_f = c_f - c_bar``, even on flat cells.  docs/performance.md gives the measured difference from
 evaluating every face.
 """
 
