@@ -75,6 +75,11 @@ class Body:
         self.warnings = list(warnings or [])
         self.source = source
 
+    def _seed(self, **arrays):
+        """Fill caches with arrays the loader already computed (same geometry, so same values)."""
+        for name, a in arrays.items():
+            self.__dict__[name] = _readonly(np.ascontiguousarray(a, dtype=float))
+
     @property
     def n_faces(self) -> int:
         return len(self.faces)
@@ -168,9 +173,8 @@ class Body:
         return frontal_area(tri, resolution)
 
     def volume(self) -> float:
-        """Enclosed volume (m3) by the divergence theorem: meaningful when closed."""
-        t = self.triangles
-        return float(np.einsum("ij,ij->", t[:, 0], np.cross(t[:, 1], t[:, 2])) / 6.0)
+        """Enclosed volume (m3) by the divergence theorem, V = 1/3 sum c . n dA: meaningful when closed."""
+        return float(np.einsum("ij,ij->", self.centroids, self.area_vectors) / 3.0)
 
     def volume_centroid(self) -> np.ndarray:
         """(3,) float: centroid of the enclosed volume, m (closed bodies)."""
@@ -222,7 +226,7 @@ def load_body(
     with progress.step("reading mesh"):
         v, f, parts = read_surface(path)
     with progress.step("cleaning mesh"):
-        v, f, merged, dropped = _clean(v, f)
+        v, f, av, merged, dropped = _clean(v, f)
     p = scale * v @ R.T
     # Origin: ground (lowest point or given), mid-wheelbase (or mid-length), mid-track.
     frame = FrameMap(R, scale, np.zeros(3))
@@ -255,11 +259,17 @@ def load_body(
     with progress.step("orienting faces"):
         fa, fb, same_dir, boundary, bface = orient.edge_pairs(f)
         flip, part, orientable = orient.consistent_flip(f, fa, fb, same_dir)
-        f = f.copy()
-        f[flip] = f[flip][:, ::-1]
-        out = orient.outward_flip(p, f, part)
-        f[out] = f[out][:, ::-1]
+        # R is a proper rotation, so the area vectors rotate with the points and scale with its square.
+        av = (scale * scale) * av @ R.T
+        tri = p[f]
+        centroids = tri.mean(axis=1)
+        av[flip] *= -1.0
+        out = orient.outward_flip(centroids, av, part)
         total_flip = flip ^ out
+        av[out] *= -1.0
+        f = f.copy()
+        f[total_flip] = f[total_flip][:, ::-1]
+        tri[total_flip] = tri[total_flip][:, ::-1]
         n_flipped = int(np.count_nonzero(total_flip))
         # Edge structure after orientation, for the diagnostics: reversing a face reverses its edges.
         same_dir = same_dir ^ total_flip[fa] ^ total_flip[fb]
@@ -267,6 +277,7 @@ def load_body(
         boundary = boundary.copy()
         boundary[rev] = boundary[rev][:, ::-1]
     body = Body(p, f, frame=frame, axles=axles, source=str(path))
+    body._seed(triangles=tri, centroids=centroids, area_vectors=av)
     with progress.step("checking mesh"):
         holes = boundary_loops(boundary, p)
         n_edges_used = 3 * len(f)
@@ -321,6 +332,8 @@ def _clean(v: np.ndarray, f: np.ndarray):
     -------
     v : (n, 3) float
     f : (m, 3) int
+    area_vectors : (m, 3) float
+        Half the edge cross product of every face (n dA as wound), mesh units.
     merged : int
         Vertices removed by merging.
     dropped : int
@@ -329,8 +342,10 @@ def _clean(v: np.ndarray, f: np.ndarray):
     n0, m0 = len(v), len(f)
     if f.min() < 0 or f.max() >= n0:
         raise InputError("mesh faces refer to vertices that do not exist")
-    span = float(np.ptp(v, axis=0).max()) or 1.0
-    q = np.round((v - v.min(axis=0)) / (span * 10.0 ** -TOL.merge_digits)).astype(np.int64)
+    lo = v.min(axis=0)
+    span = float((v.max(axis=0) - lo).max()) or 1.0
+    # floor(x + 1/2) rounds the non-negative scaled coordinates in one pass.
+    q = ((v - lo) * (10.0**TOL.merge_digits / span) + 0.5).astype(np.int64)
     # Pack the three quantised coordinates (< 2**21 each) into one int64: a 1D unique is several
     # times faster than np.unique(axis=0) on millions of rows.
     key = (q[:, 0] << 42) | (q[:, 1] << 21) | q[:, 2]
@@ -341,10 +356,11 @@ def _clean(v: np.ndarray, f: np.ndarray):
     # Degenerate: repeated index or (near) zero area.
     rep = (f[:, 0] == f[:, 1]) | (f[:, 1] == f[:, 2]) | (f[:, 2] == f[:, 0])
     t = v[f]
-    area = 0.5 * np.linalg.norm(np.cross(t[:, 1] - t[:, 0], t[:, 2] - t[:, 0]), axis=1)
+    cr = np.cross(t[:, 1] - t[:, 0], t[:, 2] - t[:, 0])
+    area = 0.5 * np.sqrt(np.einsum("ij,ij->i", cr, cr))
     med = np.median(area[~rep]) if np.any(~rep) else 0.0
     keep = ~rep & (area > TOL.degenerate_area_rel * med)
-    f = f[keep]
+    f, cr = f[keep], cr[keep]
     # Duplicate faces (same three vertices in any order).
     sf = np.sort(f, axis=1)
     n = int(sf.max()) + 1
@@ -352,14 +368,15 @@ def _clean(v: np.ndarray, f: np.ndarray):
         _, uniq = np.unique((sf[:, 0] * n + sf[:, 1]) * n + sf[:, 2], return_index=True)
     else:
         _, uniq = np.unique(sf, axis=0, return_index=True)
-    f = f[np.sort(uniq)]
+    uniq = np.sort(uniq)
+    f, cr = f[uniq], cr[uniq]
     if len(f) == 0:
         raise InputError("the mesh has no faces left after dropping degenerate ones")
     used = np.zeros(len(v), dtype=bool)
     used[f.ravel()] = True
     remap = np.cumsum(used) - 1
     v, f = v[used], remap[f]
-    return v, f, merged, m0 - len(f)
+    return v, f, 0.5 * cr, merged, m0 - len(f)
 
 
 def _size_warnings(extent: np.ndarray, unit: str, scale: float) -> list[str]:

@@ -90,21 +90,28 @@ def consistent_flip(faces: np.ndarray, fa, fb, same_dir):
     return flip, part, orientable
 
 
-def outward_flip(vertices, faces, part) -> np.ndarray:
+def outward_flip(centroids, area_vectors, part) -> np.ndarray:
     """Which parts to reverse so that normals point away from the inside.
 
-    Uses the signed volume of each part about the body's centroid (closed parts:
-    exact; open scans: the orientation that encloses positive volume, i.e.
-    normals away from the body's inside).
+    Uses the signed volume of each part about the body's centroid c0,
+    ``1/3 sum (c_f - c0) . n_f dA_f`` (closed parts: exact and independent of
+    c0; open scans: the orientation that encloses positive volume, i.e. normals
+    away from the body's inside).
+
+    Parameters
+    ----------
+    centroids : (m, 3) float
+    area_vectors : (m, 3) float
+        n dA of every face as currently wound.
+    part : (m,) int
+        Connected-part label of every face.
 
     Returns
     -------
     (m,) bool
         Faces to reverse.
     """
-    tri = vertices[faces]
-    c0 = vertices.mean(axis=0)
-    a, b, c = tri[:, 0] - c0, tri[:, 1] - c0, tri[:, 2] - c0
-    vol6 = np.einsum("ij,ij->i", a, np.cross(b, c))
-    per_part = np.bincount(part, weights=vol6)
+    c0 = centroids.mean(axis=0)
+    vol3 = np.einsum("ij,ij->i", centroids - c0, area_vectors)
+    per_part = np.bincount(part, weights=vol3)
     return per_part[part] < 0

@@ -153,3 +153,13 @@ def test_bad_mesh_files(tmp_path):
     bad.write_text("this is not a mesh\n")
     with pytest.raises(InputError, match="bad.stl"):
         meshpress.load_body(bad)
+
+
+def test_cached_geometry_matches_a_fresh_computation(samples_dir):
+    # The loader seeds the caches from its own arrays; they must equal what the faces give afresh.
+    b = meshpress.load_body(samples_dir / "coupe_scan.stl", length_unit="mm", up="+y", forward="-z")
+    t = b.vertices[b.faces]
+    np.testing.assert_allclose(b.triangles, t, atol=1e-12)
+    np.testing.assert_allclose(b.area_vectors, 0.5 * np.cross(t[:, 1] - t[:, 0], t[:, 2] - t[:, 0]), atol=1e-12)
+    np.testing.assert_allclose(b.centroids, t.mean(axis=1), atol=1e-12)
+    assert b.report.flipped_faces > 0
