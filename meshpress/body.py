@@ -121,10 +121,15 @@ class Body:
         return cKDTree(self.centroids)
 
     @cached_property
+    def face_radius(self) -> np.ndarray:
+        """(m,) float: largest distance (m) from each face's centroid to its corners."""
+        d = self.triangles - self.centroids[:, None, :]
+        return _readonly(np.sqrt(np.einsum("ijk,ijk->ij", d, d).max(axis=1)))
+
+    @property
     def max_face_radius(self) -> float:
         """Largest distance (m) from a face centroid to one of its corners."""
-        d = self.triangles - self.centroids[:, None, :]
-        return float(np.sqrt(np.einsum("ijk,ijk->ij", d, d).max()))
+        return float(self.face_radius.max())
 
     @cached_property
     def vertex_faces_matrix(self):

@@ -70,19 +70,21 @@ def consistent_flip(faces: np.ndarray, fa, fb, same_dir):
         or a non-manifold tangle); its faces are then left as they are.
     """
     m = len(faces)
-    adj = sparse.coo_matrix((np.ones(len(fa)), (fa, fb)), shape=(m, m))
-    n_parts, part = csgraph.connected_components(adj, directed=False)
     s = same_dir.astype(np.int64)
     rows = np.concatenate([2 * fa, 2 * fa + 1])
     cols = np.concatenate([2 * fb + s, 2 * fb + 1 - s])
     cover = sparse.coo_matrix((np.ones(len(rows)), (rows, cols)), shape=(2 * m, 2 * m))
     _, lab = csgraph.connected_components(cover, directed=False)
+    plain, flipped = lab[0::2], lab[1::2]
+    # A part of the face graph is two components of the cover (one per orientation), or one when it
+    # cannot be oriented; either way the smaller label names the part.
+    _, part = np.unique(np.minimum(plain, flipped), return_inverse=True)
+    n_parts = int(part.max()) + 1
     first = np.full(n_parts, -1)
     # First face of each part.
     idx = np.arange(m)[::-1]
     first[part[idx]] = idx
     root_label = lab[2 * first[part]]
-    plain, flipped = lab[0::2], lab[1::2]
     flip = flipped == root_label
     bad = plain == flipped
     orientable = not bad.any()
