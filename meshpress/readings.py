@@ -90,7 +90,7 @@ def _numeric(df, col, where) -> np.ndarray:
 
 
 def read_series(path, layout_names, *, fmt="auto", unit="Pa", time_column="time", q_column=None,
-                speed_column=None, speed_unit="m/s", ref_column=None, where="", require_all=True) -> Series:
+                speed_column=None, speed_unit="m/s", ref_column=None, where="", require_all=True, ignore=()) -> Series:
     """Read a readings file into a :class:`Series` in Pa, m/s and s.
 
     Parameters
@@ -107,6 +107,8 @@ def read_series(path, layout_names, *, fmt="auto", unit="Pa", time_column="time"
         reference appear as pseudo-taps with those names).
     where : str
         Prefix for messages (the sheet key).
+    ignore : iterable of str
+        Columns to leave out (other channels of the logger).
     require_all : bool
         Every layout tap must be in the file.
 
@@ -123,7 +125,7 @@ def read_series(path, layout_names, *, fmt="auto", unit="Pa", time_column="time"
     if fmt == "long":
         df = _long_to_wide(df, cols_lower, time_column, label)
     has_time = time_column in df.columns
-    named = set(specials) | ({time_column} if has_time else set())
+    named = set(specials) | ({time_column} if has_time else set()) | set(ignore)
     for c in specials:
         if c not in df.columns:
             raise InputError(f"{label}: no column {c!r} (named in the sheet)")
@@ -131,7 +133,8 @@ def read_series(path, layout_names, *, fmt="auto", unit="Pa", time_column="time"
     extra = [c for c in df.columns if c not in named and c not in layout]
     if extra:
         hint = " (the time column is '" + time_column + "'; set time_column)" if "time" in extra[0].lower() else ""
-        raise InputError(f"{label}: column {extra[0]!r} is not a tap of the layout{hint}")
+        raise InputError(f"{label}: column {extra[0]!r} is not a tap of the layout{hint}; list other logger "
+                         "channels in ignore_columns")
     taps = [n for n in layout_names if n in df.columns]
     missing = [n for n in layout_names if n not in df.columns]
     if missing and require_all:

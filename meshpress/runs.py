@@ -257,7 +257,7 @@ def reduce_run(run: Run, series: Series, rho: float, zero: Series | None = None)
 
 def _read_run(run: Run, names) -> tuple[Series, Series | None]:
     kw = dict(fmt=run.format, unit=run.unit, time_column=run.time_column, q_column=run.q_column,
-              speed_column=run.speed_column, speed_unit=run.speed_unit, ref_column=run.reference.column)
+              speed_column=run.speed_column, speed_unit=run.speed_unit, ref_column=run.reference.column, ignore=run.ignore_columns)
     series = read_series(run.readings, names, where=f"{run.where}.readings", **kw)
     zero = None
     if run.zero:
@@ -286,13 +286,16 @@ def process_sheet(sheet: Sheet, progress: Progress | None = None) -> TestResult:
     """
     progress = progress or Progress(enabled=False)
     v = sheet.vehicle
+    layout = read_layout(sheet.layout, sheet.exclude)
+    names = list(layout.names)
+    # Read every file first, so a mistake in the last run is reported before minutes of work.
+    with progress.step("reading runs"):
+        data = [(run, *_read_run(run, names)) for run in sheet.runs]
     body = load_body(v.mesh, length_unit=v.length_unit, up=v.up, forward=v.forward, front_axle=v.front_axle,
                      rear_axle=v.rear_axle, ground=v.ground, progress=progress)
-    layout = read_layout(sheet.layout, sheet.exclude)
     with progress.step("projecting taps"):
         taps = project_taps(body, layout, max_distance=sheet.max_tap_distance_m)
     taps = replace(taps, kind="cp")
-    names = list(taps.names)
     rho0, air_notes = sheet.air.density(f"{sheet.path.name}: air")
     ref_area = v.reference_area_m2
     if ref_area is None:
@@ -309,8 +312,6 @@ def process_sheet(sheet: Sheet, progress: Progress | None = None) -> TestResult:
         r.inputs["sheet"] = str(sheet.path)
         return r
 
-    # Read every file first, so a mistake in the last run is reported before minutes of work.
-    data = [(run, *_read_run(run, [n for n in names])) for run in sheet.runs]
     runs = []
     for run, series, zero in progress.track(data, len(data), "runs"):
         rho = rho0 if run.air is None else run.air.density(f"{sheet.path.name}: {run.where}.air")[0]

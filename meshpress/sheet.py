@@ -25,7 +25,7 @@ G_N = 9.80665  # m/s2, standard gravity (exact, CGPM 1901), to turn corner weigh
 RUN_KEYS = {
     "name", "configuration", "readings", "format", "unit", "time_column", "speed", "speed_column",
     "speed_unit", "q", "q_column", "window", "steady_band_percent", "steady_min_s", "steady_smooth_s",
-    "zero", "reference", "direction", "air", "notes",
+    "zero", "reference", "direction", "air", "notes", "ignore_columns",
 }
 #: Keys of [defaults]: every run key that makes sense for several runs at once.
 DEFAULT_KEYS = RUN_KEYS - {"name", "configuration", "readings", "zero", "direction", "notes"}
@@ -141,6 +141,7 @@ class Run:
     direction: str = ""
     air: Air | None = None
     notes: str = ""
+    ignore_columns: tuple = ()
 
     @property
     def where(self) -> str:
@@ -546,8 +547,11 @@ def _run(cx, i, d, base, own_keys) -> Run:
     reference = _reference(cx, d.get("reference"), f"{where}.reference")
     air = _air(cx, _table(cx, d, "air"), f"{where}.air") if "air" in d else None
     direction = str(d.get("direction", ""))
+    ignore = d.get("ignore_columns", [])
+    if not isinstance(ignore, list) or not all(isinstance(c, str) for c in ignore):
+        raise cx.err(f"{where}.ignore_columns", "must be a list of column names")
     return Run(i, name, config, readings, fmt, unit, time_column, speed, speed_column, speed_unit, q, q_column,
-               window, band, min_s, smooth, zero, reference, direction, air, str(d.get("notes", "")))
+               window, band, min_s, smooth, zero, reference, direction, air, str(d.get("notes", "")), tuple(ignore))
 
 
 def _reference(cx, v, key) -> Reference:

@@ -101,7 +101,7 @@ def speed_table(speeds, rho, area, coeffs: dict, static=None) -> dict:
     return t
 
 
-def plot_speed_tables(tables: dict, path, *, unit: str = "km/h", title: str = "") -> None:
+def plot_speed_tables(tables: dict, path, *, unit: str = "km/h", title: str = "", static=None) -> None:
     """Plot aero loads and axle loads against speed for each configuration (PNG).
 
     Display only: every number comes from :func:`speed_table`.  matplotlib is
@@ -122,14 +122,14 @@ def plot_speed_tables(tables: dict, path, *, unit: str = "km/h", title: str = ""
     for k, (name, t) in enumerate(tables.items()):
         c = colours[k % len(colours)]
         v = t["speed_mps"] / f
-        ax.plot(v, t["downforce_N"], color=c, lw=2, label=f"{name}: downforce")
+        ax.plot(v, t["lift_N"], color=c, lw=2, label=f"{name}: lift")
         ax.plot(v, t["drag_N"], color=c, lw=1.2, ls="--", label=f"{name}: drag")
         if "front_lift_N" in t:
-            ax.plot(v, -t["front_lift_N"], color=c, lw=1, ls=":", label=f"{name}: front downforce")
+            ax.plot(v, t["front_lift_N"], color=c, lw=1, ls=":", label=f"{name}: front axle lift")
     ax.axhline(0, color="0.6", lw=0.8)
     ax.set_xlabel(f"speed ({unit})")
     ax.set_ylabel("force (N)")
-    ax.set_title("aero loads (downforce = -lift)")
+    ax.set_title("aero loads (lift + up: downforce is negative lift)")
     ax.legend(fontsize=8)
     ax.grid(alpha=0.3)
     if has_axles:
@@ -139,6 +139,11 @@ def plot_speed_tables(tables: dict, path, *, unit: str = "km/h", title: str = ""
             v = t["speed_mps"] / f
             ax.plot(v, t["front_axle_load_N"], color=c, lw=2, label=f"{name}: front axle")
             ax.plot(v, t["rear_axle_load_N"], color=c, lw=2, ls="--", label=f"{name}: rear axle")
+        if static is not None:
+            ax.axhline(static.front_N, color="0.4", lw=0.8, ls="-")
+            ax.axhline(static.rear_N, color="0.4", lw=0.8, ls="--")
+            ax.text(v[0], static.front_N, " static front", fontsize=7, va="bottom", color="0.3")
+            ax.text(v[0], static.rear_N, " static rear", fontsize=7, va="bottom", color="0.3")
         ax.set_xlabel(f"speed ({unit})")
         ax.set_ylabel("axle load (N)")
         ax.set_title("axle loads at speed (static minus aero lift)")

@@ -55,7 +55,8 @@ def result_files(result, *, plot=True) -> dict:
         files[stem + ".json"] = dump(d)
     if plot and tables:
         files["speeds.png"] = (lambda path: plot_speed_tables(tables, path, unit=result.sheet.speed_unit,
-                                                              title=result.sheet.title))
+                                                              title=result.sheet.title,
+                                                              static=result.sheet.vehicle.static_load))
     files["test.json"] = dump({"title": result.sheet.title, "sheet": str(result.sheet.path),
                                "air": result.sheet.air.describe(), "notes": result.warnings,
                                "configurations": list(result.configurations), "caution": CAUTION,
@@ -101,11 +102,11 @@ def format_test(result) -> str:
             continue
         t = c.speeds
         i = len(t["speed_mps"]) - 1
-        line = (f"\n  {name} at {t['speed_mps'][i] / f:.0f} {unit}: downforce {t['downforce_N'][i]:,.0f} N, "
+        line = (f"\n  {name} at {t['speed_mps'][i] / f:.0f} {unit}: lift {t['lift_N'][i]:+,.0f} N, "
                 f"drag {t['drag_N'][i]:,.0f} N")
         if "front_axle_load_N" in t:
             line += (f", axle loads front {t['front_axle_load_N'][i]:,.0f} N / rear {t['rear_axle_load_N'][i]:,.0f} N"
-                     f", aero {100 * t['weight_share_added'][i]:+.1f} % of the weight")
+                     f", aero adds {100 * t['weight_share_added'][i]:+.1f} % of the weight")
         out.append(line)
     warnings = list(result.warnings)
     for c in result.configurations.values():
