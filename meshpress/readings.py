@@ -223,14 +223,26 @@ def longest_band(x: np.ndarray, tol: float) -> tuple[int, int]:
     return best
 
 
+def longest_run(mask: np.ndarray) -> tuple[int, int]:
+    """Longest run of True in ``mask``, as a half-open range (0, 0 when none)."""
+    m = np.concatenate([[False], np.asarray(mask, bool), [False]])
+    d = np.diff(m.astype(np.int8))
+    starts, ends = np.flatnonzero(d == 1), np.flatnonzero(d == -1)
+    if len(starts) == 0:
+        return 0, 0
+    k = int(np.argmax(ends - starts))
+    return int(starts[k]), int(ends[k])
+
+
 def steady_window(t: np.ndarray, x: np.ndarray, *, band: float = 0.03, min_duration: float = 10.0,
                   smooth: float = 1.0) -> tuple[float, float]:
     """The longest stretch where a signal stays within a band of its level.
 
     The signal (speed or q) is smoothed over ``smooth`` seconds; the stretch is
     the longest one whose smoothed values lie within ``level * (1 +- band)``,
-    ``level`` being the stretch's own median (found by two passes: first with
-    the whole record's median, then with the first stretch's).
+    ``level`` being the stretch's own median.  A first guess is the longest
+    stretch with max - min <= 2 band * (median of the record); two passes then
+    recentre the band on the stretch's median.
 
     Parameters
     ----------
@@ -260,11 +272,10 @@ def steady_window(t: np.ndarray, x: np.ndarray, *, band: float = 0.03, min_durat
     dt = float(np.median(np.diff(t))) if len(t) > 1 else 1.0
     xs = moving_average(x, max(1, int(round(smooth / dt)))) if smooth > 0 else x
     level = float(np.median(np.abs(xs)))
-    for _ in range(2):
-        i, j = longest_band(xs, 2 * band * level)
-        level = float(np.median(np.abs(xs[i:j])))
-    # The band test above is on max-min; also keep the stretch centred on its level.
     i, j = longest_band(xs, 2 * band * level)
+    for _ in range(2):
+        level = float(np.median(np.abs(xs[i:j])))
+        i, j = longest_run(np.abs(np.abs(xs) - level) <= band * level)
     if j - i < 2 or t[j - 1] - t[i] < min_duration:
         got = t[j - 1] - t[i] if j - i >= 2 else 0.0
         raise InputError(f"no steady stretch of {min_duration:g} s within +-{100 * band:g} % found "
