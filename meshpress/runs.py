@@ -289,8 +289,17 @@ def process_sheet(sheet: Sheet, progress: Progress | None = None) -> TestResult:
     layout = read_layout(sheet.layout, sheet.exclude)
     names = list(layout.names)
     # Read every file first, so a mistake in the last run is reported before minutes of work.
+    prefix = f"{sheet.path.name}: "
+
+    def named(fn, *a):
+        try:
+            return fn(*a)
+        except InputError as exc:
+            msg = str(exc)
+            raise InputError(msg if msg.startswith(prefix) else prefix + msg) from None
+
     with progress.step("reading runs"):
-        data = [(run, *_read_run(run, names)) for run in sheet.runs]
+        data = [(run, *named(_read_run, run, names)) for run in sheet.runs]
     body = load_body(v.mesh, length_unit=v.length_unit, up=v.up, forward=v.forward, front_axle=v.front_axle,
                      rear_axle=v.rear_axle, ground=v.ground, progress=progress)
     with progress.step("projecting taps"):
@@ -315,7 +324,7 @@ def process_sheet(sheet: Sheet, progress: Progress | None = None) -> TestResult:
     runs = []
     for run, series, zero in progress.track(data, len(data), "runs"):
         rho = rho0 if run.air is None else run.air.density(f"{sheet.path.name}: {run.where}.air")[0]
-        reading = reduce_run(run, series, rho, zero)
+        reading = named(reduce_run, run, series, rho, zero)
         load = loads(reading.cp, reading.q_Pa)
         load.inputs["readings"] = str(run.readings)
         runs.append(RunResult(run, reading, load))
