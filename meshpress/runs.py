@@ -255,26 +255,25 @@ def reduce_run(run: Run, series: Series, rho: float, zero: Series | None = None)
                       samples_total=n_total, cp_ref=float(np.mean(cp_ref)), rho=rho, zero_Pa=zero_p, notes=notes)
 
 
-def _read_run(run: Run, names) -> tuple[Series, Series | None]:
+def _read_run(run: Run, names, exclude=()) -> tuple[Series, Series | None]:
+    """Read a run's readings and zero files (excluded taps' columns are skipped)."""
+    from .readings import _read_table
+
+    ignore = tuple(run.ignore_columns) + tuple(exclude)
     kw = dict(fmt=run.format, unit=run.unit, time_column=run.time_column, q_column=run.q_column,
-              speed_column=run.speed_column, speed_unit=run.speed_unit, ref_column=run.reference.column, ignore=run.ignore_columns)
+              speed_column=run.speed_column, speed_unit=run.speed_unit, ref_column=run.reference.column,
+              ignore=ignore)
     series = read_series(run.readings, names, where=f"{run.where}.readings", **kw)
     zero = None
     if run.zero:
-        # At rest there is no speed; q and reference channels are zeroed when present.
-        zkw = dict(kw, speed_column=None)
-        zero = _read_zero(run, names, zkw)
+        # At rest there is no speed; q and reference channels are zeroed when the zero file has them.
+        cols = set(_read_table(run.zero).columns)
+        zkw = dict(kw, speed_column=None, ignore=ignore + ((run.speed_column,) if run.speed_column else ()))
+        for k in ("q_column", "ref_column"):
+            if zkw[k] and zkw[k] not in cols:
+                zkw[k] = None
+        zero = read_series(run.zero, names, where=f"{run.where}.zero", **zkw)
     return series, zero
-
-
-def _read_zero(run, names, kw):
-    from .readings import _read_table
-
-    cols = set(_read_table(run.zero).columns)
-    for k in ("q_column", "ref_column"):
-        if kw.get(k) and kw[k] not in cols:
-            kw[k] = None
-    return read_series(run.zero, names, where=f"{run.where}.zero", **kw)
 
 
 def process_sheet(sheet: Sheet, progress: Progress | None = None) -> TestResult:
@@ -299,7 +298,7 @@ def process_sheet(sheet: Sheet, progress: Progress | None = None) -> TestResult:
             raise InputError(msg if msg.startswith(prefix) else prefix + msg) from None
 
     with progress.step("reading runs"):
-        data = [(run, *named(_read_run, run, names)) for run in sheet.runs]
+        data = [(run, *named(_read_run, run, names, sheet.exclude)) for run in sheet.runs]
     body = load_body(v.mesh, length_unit=v.length_unit, up=v.up, forward=v.forward, front_axle=v.front_axle,
                      rear_axle=v.rear_axle, ground=v.ground, progress=progress)
     with progress.step("projecting taps"):

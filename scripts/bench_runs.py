@@ -47,7 +47,7 @@ def naive(sheet):
                          rear_axle=v.rear_axle)
         layout = read_layout(sheet.layout)
         taps = replace(project_taps(body, layout, max_distance=sheet.max_tap_distance_m), kind="cp")
-        series, zero = _read_run(run, list(layout.names))
+        series, zero = _read_run(run, list(layout.names), sheet.exclude)
         rd = reduce_run(run, series, rho, zero)
         out.append(compute_loads(body, taps.with_values(rd.cp), make_field("rbf"), q=rd.q_Pa))
     return out

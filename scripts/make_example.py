@@ -30,7 +30,6 @@ from meshpress.taps import read_taps
 ROOT = Path(__file__).resolve().parent.parent
 OUT = ROOT / "examples" / "sports_car_wing"
 X_NOSE = 2.15  # vehicle-frame x of the sample body's nose is -2.15 m (axles 0.85 and 3.45 m from the nose)
-RHO = None  # filled from the sheet's air below
 V_KMH = 120.0
 WIND = 3.5  # m/s along the runway, from the north (head wind running north)
 CP_CABIN = -0.18  # invented cabin pressure coefficient

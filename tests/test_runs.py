@@ -2,7 +2,6 @@
 
 import csv
 import json
-import math
 from pathlib import Path
 
 import numpy as np
@@ -277,3 +276,25 @@ def test_invented_example_end_to_end():
         assert r.reading.cp_ref == pytest.approx(-0.18, abs=0.005)  # the invented cabin Cp
     for c in res.configurations.values():
         assert c.spread["CL"]["range"] < 0.005
+
+
+def test_excluded_tap_window_and_zero_with_speed_column(tmp_path):
+    # A broken tap left out everywhere, a given window, and a zero file logged with the speed channel.
+    path, names, cp = make_test(tmp_path, sheet_extra="")
+    text = path.read_text().replace('max_distance = "30 mm"', 'max_distance = "30 mm"\nexclude = ["T05"]')
+    t = np.arange(0, 30, 0.1)
+    v = np.where(t < 10, 10.0, 25.0)
+    q = 0.5 * RHO_Q * v**2
+    off = np.linspace(-5, 5, len(names))
+    write_csv(tmp_path / "spd.csv", {"time": t, "v": v, **{n: c * q + o for n, c, o in zip(names, cp, off)}})
+    write_csv(tmp_path / "spd0.csv", {"time": t[:20], "v": 0 * t[:20], **{n: np.full(20, o) for n, o in
+                                                                          zip(names, off)}})
+    text += ('\n[[runs]]\nname = "logged"\nconfiguration = "logged"\nreadings = "spd.csv"\nzero = "spd0.csv"\n'
+             'speed_column = "v"\nwindow = [12.0, 28.0]\n')
+    path.write_text(text)
+    res = process_sheet(read_sheet(path))
+    r = res.runs[-1]
+    keep = [i for i, n in enumerate(names) if n != "T05"]
+    assert list(res.taps.names) == [names[i] for i in keep]
+    assert r.reading.window_s == (12.0, 28.0) and r.reading.samples == 161
+    assert r.reading.cp == pytest.approx(cp[keep], abs=1e-9)
