@@ -355,7 +355,7 @@ def process_sheet(sheet: Sheet, progress: Progress | None = None) -> TestResult:
         if len(members) == 1:
             warnings.append("one run only: no spread between runs, and no wind cancellation")
         sp = None
-        if sheet.speeds_mps and load.CLF is not None:
+        if sheet.speeds_mps:
             sp = speed_table(sheet.speeds_mps, rho, load.ref_area_m2,
                              {"CL": load.CL, "CD": load.CD, "CLF": load.CLF, "CLR": load.CLR}, v.static_load)
         load.warnings.extend(warnings)

@@ -10,8 +10,7 @@ from meshpress.coefficients import dynamic_pressure
 from meshpress.errors import InputError
 from meshpress.units import speed_factor
 
-GRID = [(t, p, h) for t in (5.0, 15.0, 20.0, 27.0, 35.0) for p in (85_000.0, 95_000.0, 101_325.0)
-        for h in (0.0, 0.3, 0.6, 0.9)]
+GRID = [(t, p, h) for t in (5.0, 20.0, 35.0) for p in (85_000.0, 101_325.0) for h in (0.0, 0.5, 0.9)]
 
 
 def test_isa_sea_level():

@@ -204,6 +204,11 @@ def test_cli_run_writes_results_and_diff(tmp_path):
     before = path.read_text()
     r = run_cli("run", path, "--out", tmp_path, "--quiet")
     assert r.returncode == 2 and "refusing" in r.stderr and path.read_text() == before
+    # A sheet mistake through the real command line: one line, exit 2, no traceback.
+    path.write_text(before.replace("speed = 30.0\n", "speed = -30.0\n"))
+    r = run_cli("run", path, "--quiet", "--out", tmp_path / "o")
+    assert r.returncode == 2 and r.stderr == "meshpress: error: sheet.toml: runs[3].speed: must be positive\n"
+    path.write_text(before)
     # diff of two result files
     a, b = out / "configurations/onboard.json", out / "configurations/ground.json"
     r = run_cli("diff", a, b, "--json", tmp_path / "d.json")
@@ -298,3 +303,16 @@ def test_excluded_tap_window_and_zero_with_speed_column(tmp_path):
     assert list(res.taps.names) == [names[i] for i in keep]
     assert r.reading.window_s == (12.0, 28.0) and r.reading.samples == 161
     assert r.reading.cp == pytest.approx(cp[keep], abs=1e-9)
+
+
+def test_sheet_without_axles_or_static_loads(tmp_path):
+    from meshpress.commands.run import format_test
+
+    path, _, _ = make_test(tmp_path)
+    text = path.read_text().replace("front_axle = -0.6\nrear_axle = 0.6\n", "")
+    text = text.replace('[vehicle.static_load]\nunit = "N"\nfront_axle = 3000\nrear_axle = 3000\n', "")
+    path.write_text(text)
+    res = process_sheet(read_sheet(path))
+    c = res.configurations["onboard"]
+    assert c.load.CLF is None and c.speeds is not None and "front_axle_load_N" not in c.speeds
+    assert "n/a" in format_test(res)

@@ -64,6 +64,11 @@ def result_files(result, *, plot=True) -> dict:
     return files
 
 
+def _c(v, width=8):
+    """A coefficient, signed, 3 decimals; n/a when it could not be computed (e.g. no axles)."""
+    return f"{'n/a' if v is None else format(v, '+.3f'):>{width}}"
+
+
 def format_test(result) -> str:
     """The readable summary printed by ``meshpress run``."""
     from ..results import CAUTION
@@ -78,21 +83,20 @@ def format_test(result) -> str:
         w = r.reading.window_s
         ws = f"{w[0]:.0f}-{w[1]:.0f}" if w else "all"
         L = r.load
-        out.append(f"  {r.run.name:<22}{r.run.configuration:<14}{ws:>13}{r.reading.q_Pa:>9.1f}{L.CL:>+8.3f}"
-                   f"{L.CD:>+8.3f}{L.CLF:>+8.3f}{L.CLR:>+8.3f}")
+        out.append(f"  {r.run.name:<22}{r.run.configuration:<14}{ws:>13}{r.reading.q_Pa:>9.1f}{_c(L.CL)}"
+                   f"{_c(L.CD)}{_c(L.CLF)}{_c(L.CLR)}")
     out += ["", f"  {'configuration':<18}{'runs':>5}{'CL':>8}{'+-':>7}{'CD':>8}{'CLF':>8}{'CLR':>8}{'front %':>9}"]
     for name, c in result.configurations.items():
         L = c.load
         half = c.spread.get("CL", {}).get("range", 0.0) / 2
         fs = "n/a" if L.front_share is None else f"{100 * L.front_share:.1f}"
-        out.append(f"  {name:<18}{len(c.runs):>5}{L.CL:>+8.3f}{half:>7.3f}{L.CD:>+8.3f}{L.CLF:>+8.3f}{L.CLR:>+8.3f}"
-                   f"{fs:>9}")
+        out.append(f"  {name:<18}{len(c.runs):>5}{_c(L.CL)}{half:>7.3f}{_c(L.CD)}{_c(L.CLF)}{_c(L.CLR)}{fs:>9}")
     out.append("  (+- is half the spread of CL between the configuration's runs)")
     for d in result.comparisons:
         dd = d["delta"]
         fs = "n/a" if dd["front_share"] is None else f"{100 * dd['front_share']:+.1f} points"
-        out.append(f"\n  {d['other']} vs {d['base']}: dCL {dd['CL']:+.3f}  dCD {dd['CD']:+.3f}  dCLF {dd['CLF']:+.3f}"
-                   f"  dCLR {dd['CLR']:+.3f}  front share {fs}")
+        out.append(f"\n  {d['other']} vs {d['base']}: dCL {_c(dd['CL'], 0)}  dCD {_c(dd['CD'], 0)}  "
+                   f"dCLF {_c(dd['CLF'], 0)}  dCLR {_c(dd['CLR'], 0)}  front share {fs}")
         big = sorted(d["taps"], key=lambda t: -abs(t["delta_cp"]))[:3]
         out.append("    largest tap changes: " + ", ".join(f"{t['name']} {t['delta_cp']:+.3f}" for t in big))
     unit = s.speed_unit
