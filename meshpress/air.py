@@ -93,12 +93,12 @@ def air_density(temperature_C: float, pressure_Pa: float, humidity_percent: floa
         Remarks for the report (outside the formula's stated range).
     """
     if not -60 <= temperature_C <= 70:
-        raise InputError(f"{where}: temperature {temperature_C:g} degC is not a plausible air temperature")
+        raise InputError(f"{where}.temperature_C: {temperature_C:g} degC is not a plausible air temperature")
     if not 30_000 <= pressure_Pa <= 120_000:
-        raise InputError(f"{where}: barometric pressure {pressure_Pa:g} Pa is not plausible (give the absolute "
-                         "station pressure, e.g. '1013 hPa')")
+        raise InputError(f"{where}.pressure: {pressure_Pa:g} Pa is not a plausible barometric pressure (give "
+                         "the absolute station pressure, e.g. '1013 hPa')")
     if not 0 <= humidity_percent <= 100:
-        raise InputError(f"{where}: relative humidity {humidity_percent:g} % must be between 0 and 100")
+        raise InputError(f"{where}.humidity_percent: {humidity_percent:g} % must be between 0 and 100")
     notes = []
     if not (15 <= temperature_C <= 27 and 60_000 <= pressure_Pa <= 110_000):
         notes.append(f"air at {temperature_C:g} degC, {pressure_Pa / 100:g} hPa is outside the CIPM-2007 range "
