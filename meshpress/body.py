@@ -118,8 +118,8 @@ class Body:
     @cached_property
     def max_face_radius(self) -> float:
         """Largest distance (m) from a face centroid to one of its corners."""
-        d = np.linalg.norm(self.triangles - self.centroids[:, None, :], axis=2)
-        return float(d.max())
+        d = self.triangles - self.centroids[:, None, :]
+        return float(np.sqrt(np.einsum("ijk,ijk->ij", d, d).max()))
 
     @cached_property
     def vertex_faces_matrix(self):
@@ -138,6 +138,15 @@ class Body:
         s[s == 0] = 1.0
         return sparse.diags(1.0 / s) @ A
 
+    def clusters(self, cell: float):
+        """Face clusters for :mod:`meshpress.quadrature` (cached per cell size, m)."""
+        from .quadrature import cluster_faces
+
+        cache = self.__dict__.setdefault("_clusters", {})
+        if cell not in cache:
+            cache[cell] = cluster_faces(self.centroids, self.area_vectors, cell)
+        return cache[cell]
+
     @property
     def area(self) -> float:
         """Total surface area, m2."""
@@ -152,7 +161,11 @@ class Body:
         """Projected area on the y-z plane (m2), rasterised at ``resolution`` m."""
         from .frontal import frontal_area
 
-        return frontal_area(self.triangles, resolution)
+        tri = self.triangles
+        if self.report is not None and self.report.watertight:
+            # Closed: the front-facing faces already cover the whole silhouette.
+            tri = tri[self.area_vectors[:, 0] < 0]
+        return frontal_area(tri, resolution)
 
     def volume(self) -> float:
         """Enclosed volume (m3) by the divergence theorem: meaningful when closed."""
@@ -240,15 +253,19 @@ def load_body(
     frame = FrameMap(R, scale, origin)
     p = p - origin
     with progress.step("orienting faces"):
-        fa, fb, same_dir, _ = orient.edge_pairs(f)
+        fa, fb, same_dir, boundary, bface = orient.edge_pairs(f)
         flip, part, orientable = orient.consistent_flip(f, fa, fb, same_dir)
         f = f.copy()
         f[flip] = f[flip][:, ::-1]
         out = orient.outward_flip(p, f, part)
         f[out] = f[out][:, ::-1]
-        n_flipped = int(np.count_nonzero(flip ^ out))
-        # Edge structure after orientation, for the diagnostics.
-        fa, fb, same_dir, boundary = orient.edge_pairs(f)
+        total_flip = flip ^ out
+        n_flipped = int(np.count_nonzero(total_flip))
+        # Edge structure after orientation, for the diagnostics: reversing a face reverses its edges.
+        same_dir = same_dir ^ total_flip[fa] ^ total_flip[fb]
+        rev = total_flip[bface]
+        boundary = boundary.copy()
+        boundary[rev] = boundary[rev][:, ::-1]
     body = Body(p, f, frame=frame, axles=axles, source=str(path))
     with progress.step("checking mesh"):
         holes = boundary_loops(boundary, p)
@@ -313,9 +330,11 @@ def _clean(v: np.ndarray, f: np.ndarray):
     if f.min() < 0 or f.max() >= n0:
         raise InputError("mesh faces refer to vertices that do not exist")
     span = float(np.ptp(v, axis=0).max()) or 1.0
-    q = np.round(v / (span * 10.0 ** -TOL.merge_digits)).astype(np.int64)
-    _, first, inv = np.unique(q, axis=0, return_index=True, return_inverse=True)
-    inv = inv.ravel()
+    q = np.round((v - v.min(axis=0)) / (span * 10.0 ** -TOL.merge_digits)).astype(np.int64)
+    # Pack the three quantised coordinates (< 2**21 each) into one int64: a 1D unique is several
+    # times faster than np.unique(axis=0) on millions of rows.
+    key = (q[:, 0] << 42) | (q[:, 1] << 21) | q[:, 2]
+    _, first, inv = np.unique(key, return_index=True, return_inverse=True)
     v = v[first]
     f = inv[f]
     merged = n0 - len(v)
@@ -327,7 +346,12 @@ def _clean(v: np.ndarray, f: np.ndarray):
     keep = ~rep & (area > TOL.degenerate_area_rel * med)
     f = f[keep]
     # Duplicate faces (same three vertices in any order).
-    _, uniq = np.unique(np.sort(f, axis=1), axis=0, return_index=True)
+    sf = np.sort(f, axis=1)
+    n = int(sf.max()) + 1
+    if n < 2**21:  # n**3 fits in an int64: one key per face
+        _, uniq = np.unique((sf[:, 0] * n + sf[:, 1]) * n + sf[:, 2], return_index=True)
+    else:
+        _, uniq = np.unique(sf, axis=0, return_index=True)
     f = f[np.sort(uniq)]
     if len(f) == 0:
         raise InputError("the mesh has no faces left after dropping degenerate ones")

@@ -31,16 +31,19 @@ def edge_pairs(faces: np.ndarray):
         (inconsistent winding).
     boundary : (b, 2) int
         Directed boundary edges (used by exactly one face), as wound.
+    boundary_face : (b,) int
+        The face of each boundary edge.
     """
     m = len(faces)
     e = np.stack([faces[:, [0, 1]], faces[:, [1, 2]], faces[:, [2, 0]]], axis=1).reshape(-1, 2)
     owner = np.repeat(np.arange(m), 3)
-    key = np.sort(e, axis=1)
+    lo, hi = np.minimum(e[:, 0], e[:, 1]), np.maximum(e[:, 0], e[:, 1])
     forward = e[:, 0] < e[:, 1]
-    order = np.lexsort((key[:, 1], key[:, 0]))
+    key = lo * (int(faces.max()) + 1) + hi  # one int64 per undirected edge: a 1D sort, not a lexsort
+    order = np.argsort(key, kind="stable")
     ks = key[order]
     new = np.ones(len(ks), dtype=bool)
-    new[1:] = np.any(ks[1:] != ks[:-1], axis=1)
+    new[1:] = ks[1:] != ks[:-1]
     group = np.cumsum(new) - 1
     counts = np.bincount(group)
     gc = counts[group]
@@ -50,7 +53,7 @@ def edge_pairs(faces: np.ndarray):
     fa, fb = owner[a], owner[b]
     same_dir = forward[a] == forward[b]
     bnd = order[gc == 1]
-    return fa, fb, same_dir, e[bnd]
+    return fa, fb, same_dir, e[bnd], owner[bnd]
 
 
 def consistent_flip(faces: np.ndarray, fa, fb, same_dir):

@@ -88,16 +88,16 @@ def read_taps(path, *, pressure_unit: str = "Pa") -> TapTable:
     if len(kinds) > 1:
         raise InputError(f"{where}: has both 'p' and 'cp' columns; keep one")
     kind = kinds[0]
-    rows = _row_numbers(path, len(df))
+    rows, word = _row_numbers(path, len(df))
     names = df["tap"]
     for i, name in enumerate(names):
         if pd.isna(name) or str(name).strip() == "":
-            raise InputError(f"{where}, row {rows[i]}, column tap: empty tap name")
+            raise InputError(f"{where}, {word} {rows[i]}, column tap: empty tap name")
     names = [str(n).strip() for n in names]
     seen = {}
     for i, n in enumerate(names):
         if n in seen:
-            raise InputError(f"{where}, row {rows[i]}, column tap: duplicate tap name {n!r} (first on row {seen[n]})")
+            raise InputError(f"{where}, {word} {rows[i]}, column tap: duplicate tap name {n!r} (first on {word} {seen[n]})")
         seen[n] = rows[i]
     cols = {}
     for c in ("x", "y", "z", kind):
@@ -106,7 +106,7 @@ def read_taps(path, *, pressure_unit: str = "Pa") -> TapTable:
         if len(bad):
             i = bad[0]
             raise InputError(
-                f"{where}, row {rows[i]}, column {c}: {df[c].iloc[i]!r} is not a number (tap {names[i]!r})"
+                f"{where}, {word} {rows[i]}, column {c}: {df[c].iloc[i]!r} is not a number (tap {names[i]!r})"
             )
         cols[c] = num.to_numpy(dtype=float)
     values = cols[kind]
@@ -123,7 +123,7 @@ def read_taps(path, *, pressure_unit: str = "Pa") -> TapTable:
                     parse_axis(s)
                 except InputError:
                     raise InputError(
-                        f"{where}, row {rows[i]}, column side: {s!r} is not upper, lower or a signed axis like +y"
+                        f"{where}, {word} {rows[i]}, column side: {s!r} is not upper, lower or a signed axis like +y"
                     ) from None
             sides[i] = s
     pts = np.column_stack([cols["x"], cols["y"], cols["z"]])
@@ -131,13 +131,13 @@ def read_taps(path, *, pressure_unit: str = "Pa") -> TapTable:
 
 
 def _row_numbers(path: Path, n: int) -> np.ndarray:
-    """File line (CSV) or sheet row (xlsx) of each data row, 1-based."""
+    """File line (CSV) or sheet row (xlsx) of each data row, 1-based, and the word for it."""
     if path.suffix.lower() in (".xlsx", ".xlsm"):
-        return np.arange(n) + 2
+        return np.arange(n) + 2, "row"
     with open(path, encoding="utf-8", errors="replace") as fh:
         data = [i + 1 for i, line in enumerate(fh) if line.strip() and not line.lstrip().startswith("#")]
     rows = np.array(data[1 : n + 1])
-    return rows if len(rows) == n else np.arange(n) + 2
+    return (rows, "line") if len(rows) == n else (np.arange(n) + 2, "row")
 
 
 def _read_frame(path: Path) -> pd.DataFrame:
