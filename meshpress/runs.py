@@ -99,7 +99,8 @@ class ConfigurationResult:
     cp_spread : (k,) float
         Largest minus smallest run Cp per tap (0 for one run).
     load : LoadResult
-        The main-job result of the mean Cp at the mean q; ``face_values`` is Cp per face.
+        The main-job result of the mean Cp at the mean q; ``face_values`` is Cp per face
+        (filled from the fitted field when the loads were summed by clusters).
     spread : dict
         Per figure: ``min, max, range, std`` over the runs.
     speeds : dict or None
@@ -129,6 +130,17 @@ class TestResult:
     warnings: list = field(default_factory=list)
 
 
+def face_values(load: LoadResult) -> np.ndarray | None:
+    """(m,) values on every face of a result: its own, or from its fitted field after clustered quadrature."""
+    if load.face_values is not None:
+        return np.asarray(load.face_values)
+    field_ = getattr(load, "field", None)
+    if field_ is None:
+        return None
+    load.face_values = np.asarray(field_.face_values())
+    return load.face_values
+
+
 def configuration_results(result: TestResult) -> dict:
     """Hook for reports: configuration name -> :class:`ConfigurationResult`, in sheet order."""
     return dict(result.configurations)
@@ -144,14 +156,14 @@ def read_layout(path, exclude=()) -> TapTable:
     missing = [c for c in ("tap", "x", "y", "z") if c not in df.columns]
     if missing:
         raise InputError(f"{where}: missing column(s) {', '.join(missing)} (the layout needs tap, x, y, z)")
-    rows = _row_numbers(path, len(df))
+    rows, word = _row_numbers(path, len(df))
     names, seen = [], {}
     for i, n in enumerate(df["tap"]):
         n = "" if n is None or (isinstance(n, float) and math.isnan(n)) else str(n).strip()
         if not n:
-            raise InputError(f"{where}, row {rows[i]}, column tap: empty tap name")
+            raise InputError(f"{where}, {word} {rows[i]}, column tap: empty tap name")
         if n in seen:
-            raise InputError(f"{where}, row {rows[i]}, column tap: duplicate tap name {n!r} (first on row {seen[n]})")
+            raise InputError(f"{where}, {word} {rows[i]}, column tap: duplicate tap name {n!r} (first on {word} {seen[n]})")
         seen[n] = rows[i]
         names.append(n)
     cols = []
@@ -159,7 +171,7 @@ def read_layout(path, exclude=()) -> TapTable:
         num = pd.to_numeric(df[c], errors="coerce").to_numpy(dtype=float)
         bad = np.flatnonzero(~np.isfinite(num))
         if len(bad):
-            raise InputError(f"{where}, row {rows[bad[0]]}, column {c}: {df[c].iloc[bad[0]]!r} is not a number")
+            raise InputError(f"{where}, {word} {rows[bad[0]]}, column {c}: {df[c].iloc[bad[0]]!r} is not a number")
         cols.append(num)
     sides = [""] * len(names)
     if "side" in df.columns:
@@ -170,7 +182,7 @@ def read_layout(path, exclude=()) -> TapTable:
                 try:
                     parse_axis(s)
                 except InputError:
-                    raise InputError(f"{where}, row {rows[i]}, column side: {s!r} is not upper, lower or a "
+                    raise InputError(f"{where}, {word} {rows[i]}, column side: {s!r} is not upper, lower or a "
                                      "signed axis like +y") from None
     for e in exclude:
         if e not in seen:
@@ -359,6 +371,7 @@ def process_sheet(sheet: Sheet, progress: Progress | None = None) -> TestResult:
             sp = speed_table(sheet.speeds_mps, rho, load.ref_area_m2,
                              {"CL": load.CL, "CD": load.CD, "CLF": load.CLF, "CLR": load.CLR}, v.static_load)
         load.warnings.extend(warnings)
+        face_values(load)
         configs[name] = ConfigurationResult(name, members, cp, np.ptp(cps, axis=0), load, spread, rho, sp, warnings)
     comparisons = [compare_configurations(configs[a], configs[b], names) for a, b in sheet.compare]
     return TestResult(sheet, body, taps, runs, configs, comparisons, list(air_notes))
@@ -401,7 +414,7 @@ def compare_loads(a: LoadResult, b: LoadResult) -> dict:
         x, y = getattr(a, k), getattr(b, k)
         d["base_figures"][k], d["other_figures"][k] = x, y
         d["delta"][k] = None if x is None or y is None else y - x
-    fa, fb = a.face_values, b.face_values
+    fa, fb = face_values(a), face_values(b)
     if fa is not None and fb is not None and len(fa) == len(fb):
         dc = np.asarray(fb) - np.asarray(fa)
         if a.value_kind == "p" and a.q_Pa and b.q_Pa:
