@@ -67,42 +67,33 @@ def compute_loads(
     if ref_area is not None and not (ref_area > 0):
         raise InputError(f"reference area must be positive, got {ref_area:g} m2")
     field = field or make_field("rbf")
-    # The frontal-area raster needs nothing from the field: run it on the second core meanwhile
-    # (numpy releases the GIL in its array loops).
-    pool = frontal = None
     if ref_area is None:
-        from concurrent.futures import ThreadPoolExecutor
-
-        pool = ThreadPoolExecutor(max_workers=1)
-        frontal = pool.submit(body.frontal_area, frontal_resolution)
-    try:
-        with progress.step(f"fitting {field.name} field"):
-            field.fit(body, taps, progress=progress)
-        F, M, values, quad = _integrate(body, field, quadrature, p_ref, progress)
-        r0 = np.zeros(3)
-        warnings = list(body.warnings) + list(field.warnings_)
-        if body.axles is None:
-            # Ground point under the body's centre: the frame origin when no axles are given.
-            warnings.append("no axle positions given: moment taken about the ground under the body's centre; "
-                            "axle figures left out")
-        if taps.kind == "p":
-            force, moment = F, M
-            per_q = (F / q, M / q) if q else (None, None)
-        else:
-            per_q = (F, M)
-            force, moment = (F * q, M * q) if q else (None, None)
-        if ref_area is None:
-            with progress.step("frontal area"):
-                ref_area = frontal.result()
-            area_src = f"frontal area (y-z projection rasterised at {frontal_resolution * 1000:g} mm)"
-        else:
-            area_src = "given"
-        if per_q[0] is None:
-            warnings.append("no --q or --speed given: forces in N only, coefficients left out")
-            per_q = (np.full(3, np.nan), np.full(3, np.nan))
-    finally:
-        if pool is not None:
-            pool.shutdown(wait=False, cancel_futures=True)
+        # The frontal-area raster needs nothing from the field: it runs on the second core meanwhile.
+        body.prefetch(frontal_resolution=frontal_resolution)
+    with progress.step(f"fitting {field.name} field"):
+        field.fit(body, taps, progress=progress)
+    F, M, values, quad = _integrate(body, field, quadrature, p_ref, progress)
+    r0 = np.zeros(3)
+    warnings = list(body.warnings) + list(field.warnings_)
+    if body.axles is None:
+        # Ground point under the body's centre: the frame origin when no axles are given.
+        warnings.append("no axle positions given: moment taken about the ground under the body's centre; "
+                        "axle figures left out")
+    if taps.kind == "p":
+        force, moment = F, M
+        per_q = (F / q, M / q) if q else (None, None)
+    else:
+        per_q = (F, M)
+        force, moment = (F * q, M * q) if q else (None, None)
+    if ref_area is None:
+        with progress.step("frontal area"):
+            ref_area = body.frontal_area(frontal_resolution)
+        area_src = f"frontal area (y-z projection rasterised at {frontal_resolution * 1000:g} mm)"
+    else:
+        area_src = "given"
+    if per_q[0] is None:
+        warnings.append("no --q or --speed given: forces in N only, coefficients left out")
+        per_q = (np.full(3, np.nan), np.full(3, np.nan))
     tap_rows = [
         {"name": n, "value": float(v), "distance_m": float(d), "x_m": float(p[0]), "y_m": float(p[1]),
          "z_m": float(p[2]), "face": int(f)}
@@ -174,6 +165,9 @@ def run_loads(mesh, taps_file, *, length_unit="m", up="+z", forward="-x", front_
     progress = progress or Progress(enabled=False)
     body = load_body(mesh, length_unit=length_unit, up=up, forward=forward, front_axle=front_axle,
                      rear_axle=rear_axle, ground=ground, progress=progress)
+    # Start the frontal area and (for big bodies) the face clusters on the second core.
+    body.prefetch(frontal_resolution=None if ref_area is not None else TOL.frontal_resolution_m,
+                  cluster_cell=TOL.cluster_cell_m if body.n_faces > TOL.cluster_min_faces else None)
     table = read_taps(taps_file, pressure_unit=pressure_unit)
     with progress.step("projecting taps"):
         projected = project_taps(body, table, max_distance=max_tap_distance)

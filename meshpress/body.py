@@ -148,15 +148,6 @@ class Body:
         s[s == 0] = 1.0
         return sparse.diags(1.0 / s) @ A
 
-    def clusters(self, cell: float):
-        """Face clusters for :mod:`meshpress.quadrature` (cached per cell size, m)."""
-        from .quadrature import cluster_faces
-
-        cache = self.__dict__.setdefault("_clusters", {})
-        if cell not in cache:
-            cache[cell] = cluster_faces(self.centroids, self.area_vectors, cell)
-        return cache[cell]
-
     @property
     def area(self) -> float:
         """Total surface area, m2."""
@@ -168,7 +159,10 @@ class Body:
         return float(np.ptp(self.vertices[:, 0]))
 
     def frontal_area(self, resolution: float = TOL.frontal_resolution_m) -> float:
-        """Projected area on the y-z plane (m2), rasterised at ``resolution`` m."""
+        """Projected area on the y-z plane (m2), rasterised at ``resolution`` m (cached)."""
+        return self._cached(("frontal", resolution), self._frontal_area_now, resolution)
+
+    def _frontal_area_now(self, resolution):
         from .frontal import frontal_area
 
         tri = self.triangles
@@ -176,6 +170,51 @@ class Body:
             # Closed: the front-facing faces already cover the whole silhouette.
             tri = tri[self.area_vectors[:, 0] < 0]
         return frontal_area(tri, resolution)
+
+    def clusters(self, cell: float):
+        """Face clusters for :mod:`meshpress.quadrature`, cells of ``cell`` m (cached)."""
+        from .quadrature import cluster_faces
+
+        return self._cached(("clusters", cell), cluster_faces, self.centroids, self.area_vectors, cell)
+
+    def prefetch(self, *, frontal_resolution: float | None = None, cluster_cell: float | None = None) -> None:
+        """Start the frontal area and the face clusters on a second thread.
+
+        Both are pure array work in which numpy releases the GIL, so on a
+        two-core machine they run beside tap projection and field fitting; the
+        first call of :meth:`frontal_area` or :meth:`clusters` then waits for it.
+        """
+        from concurrent.futures import ThreadPoolExecutor
+
+        jobs = []
+        if frontal_resolution is not None:
+            jobs.append((("frontal", frontal_resolution), self._frontal_area_now, (frontal_resolution,)))
+        if cluster_cell is not None:
+            from .quadrature import cluster_faces
+
+            jobs.append((("clusters", cluster_cell), cluster_faces, (self.centroids, self.area_vectors, cluster_cell)))
+        jobs = [j for j in jobs if j[0] not in self._cache]
+        if not jobs:
+            return
+        pool = ThreadPoolExecutor(max_workers=1, thread_name_prefix="meshpress-prefetch")
+        for key, fn, args in jobs:
+            self._cache[key] = pool.submit(fn, *args)
+        pool.shutdown(wait=False)
+
+    @property
+    def _cache(self) -> dict:
+        return self.__dict__.setdefault("_derived", {})
+
+    def _cached(self, key, fn, *args):
+        from concurrent.futures import Future
+
+        v = self._cache.get(key)
+        if isinstance(v, Future):
+            v = v.result()
+        elif v is None:
+            v = fn(*args)
+        self._cache[key] = v
+        return v
 
     def volume(self) -> float:
         """Enclosed volume (m3) by the divergence theorem, V = 1/3 sum c . n dA: meaningful when closed."""
