@@ -19,6 +19,7 @@ from . import orient
 from .diagnostics import MeshReport, boundary_loops
 from .errors import InputError
 from .frame import FrameMap, rotation
+from .grouping import group
 from .progress import Progress
 from .readers import read_surface
 from .tolerances import TOL
@@ -393,7 +394,7 @@ def _clean(v: np.ndarray, f: np.ndarray):
     # Pack the three quantised coordinates (< 2**21 each) into one int64: a 1D unique is several
     # times faster than np.unique(axis=0) on millions of rows.
     key = (q[:, 0] << 42) | (q[:, 1] << 21) | q[:, 2]
-    _, first, inv = np.unique(key, return_index=True, return_inverse=True)
+    inv, first, _, _ = group(key)
     v = v[first]
     f = inv[f]
     merged = n0 - len(v)
@@ -409,7 +410,7 @@ def _clean(v: np.ndarray, f: np.ndarray):
     sf = np.sort(f, axis=1)
     n = int(sf.max()) + 1
     if n < 2**21:  # n**3 fits in an int64: one key per face
-        _, uniq = np.unique((sf[:, 0] * n + sf[:, 1]) * n + sf[:, 2], return_index=True)
+        _, uniq, _, _ = group((sf[:, 0] * n + sf[:, 1]) * n + sf[:, 2])
     else:
         _, uniq = np.unique(sf, axis=0, return_index=True)
     uniq = np.sort(uniq)

@@ -14,6 +14,8 @@ import numpy as np
 from scipy import sparse
 from scipy.sparse import csgraph
 
+from .grouping import group
+
 
 def edge_pairs(faces: np.ndarray):
     """Interior edges shared by exactly two faces.
@@ -39,20 +41,14 @@ def edge_pairs(faces: np.ndarray):
     owner = np.repeat(np.arange(m), 3)
     lo, hi = np.minimum(e[:, 0], e[:, 1]), np.maximum(e[:, 0], e[:, 1])
     forward = e[:, 0] < e[:, 1]
-    key = lo * (int(faces.max()) + 1) + hi  # one int64 per undirected edge: a 1D sort, not a lexsort
-    order = np.argsort(key, kind="stable")
-    ks = key[order]
-    new = np.ones(len(ks), dtype=bool)
-    new[1:] = ks[1:] != ks[:-1]
-    group = np.cumsum(new) - 1
-    counts = np.bincount(group)
-    gc = counts[group]
-    # Edges with exactly two faces: consecutive pairs in sorted order.
-    two = np.flatnonzero(new & (gc == 2))
-    a, b = order[two], order[two + 1]
+    # One int64 per undirected edge, grouped by hashing: a pair's two half-edges are the group's
+    # first and last member, so no sort is needed.
+    _, first, last, counts = group(lo * (int(faces.max()) + 1) + hi)
+    two = counts == 2
+    a, b = first[two], last[two]
     fa, fb = owner[a], owner[b]
     same_dir = forward[a] == forward[b]
-    bnd = order[gc == 1]
+    bnd = first[counts == 1]
     return fa, fb, same_dir, e[bnd], owner[bnd]
 
 

@@ -21,6 +21,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from .grouping import group
+
 
 @dataclass(frozen=True)
 class Clusters:
@@ -69,8 +71,8 @@ def cluster_faces(centroids, area_vectors, cell: float) -> Clusters:
     octant = 2 * dom + sign  # 0..5
     dims = ijk.max(axis=0) + 1
     key = ((ijk[:, 0] * dims[1] + ijk[:, 1]) * dims[2] + ijk[:, 2]) * 6 + octant
-    _, label = np.unique(key, return_inverse=True)
-    k = int(label.max()) + 1
+    label, _, _, counts = group(key)
+    k = len(counts)
     area = np.linalg.norm(a, axis=1)
     w = np.bincount(label, weights=area, minlength=k)
     w[w == 0] = 1.0
