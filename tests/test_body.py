@@ -163,3 +163,10 @@ def test_cached_geometry_matches_a_fresh_computation(samples_dir):
     np.testing.assert_allclose(b.area_vectors, 0.5 * np.cross(t[:, 1] - t[:, 0], t[:, 2] - t[:, 0]), atol=1e-12)
     np.testing.assert_allclose(b.centroids, t.mean(axis=1), atol=1e-12)
     assert b.report.flipped_faces > 0
+
+
+def test_ground_height_given(small_car):
+    # The origin sits on the given ground plane, not on the lowest point.
+    path, v, f = small_car
+    b = meshpress.load_body(path, ground=-0.1)
+    assert b.vertices[:, 2].min() == pytest.approx(0.1 + v[:, 2].min(), abs=1e-12)

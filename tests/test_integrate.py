@@ -102,3 +102,13 @@ def test_coefficient_identities(samples_dir):
     assert res.CLF - res.CLR == pytest.approx(2 * res.CPM)
     assert res.front_lift_N + res.rear_lift_N == pytest.approx(res.lift_N)
     assert res.CL == pytest.approx(res.lift_N / (472.6 * res.ref_area_m2))
+
+
+def test_reference_offset_on_open_surface(hemisphere_file, tmp_path):
+    # Over an open surface a uniform pressure gives -p times the vector area (divergence theorem):
+    # on the upper unit hemisphere sum n dA = (0, 0, pi r^2), so p_ref = 1 with zero taps gives lift +pi.
+    pts = fibonacci_hemisphere(30)
+    taps = write_taps(tmp_path / "z.csv", [f"T{i}" for i in range(30)], pts, np.zeros(30))
+    res = meshpress.run_loads(hemisphere_file, taps, p_ref=1.0, q=1.0, ref_area=1.0)
+    assert res.CL == pytest.approx(np.pi, rel=2e-3)  # icosphere cut: its rim circle is slightly short of r = 1
+    assert abs(res.CD) < 1e-9 and abs(res.CS) < 1e-9
