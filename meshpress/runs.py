@@ -15,22 +15,21 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field, replace
+from pathlib import Path
 
 import numpy as np
-import pandas as pd
 
 from .analysis import compute_loads
 from .body import load_body
 from .errors import InputError
 from .fields import make_field
-from .frame import parse_axis
 from .progress import Progress
 from .projection import project_taps
 from .readings import Series, TapStats, pressure_coefficients, read_series, steady_window, tap_statistics
 from .results import LoadResult
 from .sheet import Run, Sheet
 from .speed import SPEED_CAUTION, speed_table
-from .taps import TapTable, _read_frame, _row_numbers
+from .taps import TapTable, read_taps
 
 WIND_BIAS_WARNING = (
     "q comes from a speed, not from an on-board pitot-static measurement: if that speed is a ground speed, a "
@@ -147,49 +146,15 @@ def configuration_results(result: TestResult) -> dict:
 
 
 def read_layout(path, exclude=()) -> TapTable:
-    """Read the tap layout: columns tap, x, y, z [, side], in the mesh's unit and axes."""
-    where = str(path)
-    df = _read_frame(path)
-    df.columns = [str(c).strip().lower() for c in df.columns]
-    if df.empty:
-        raise InputError(f"{where}: the tap layout has no rows")
-    missing = [c for c in ("tap", "x", "y", "z") if c not in df.columns]
-    if missing:
-        raise InputError(f"{where}: missing column(s) {', '.join(missing)} (the layout needs tap, x, y, z)")
-    rows, word = _row_numbers(path, len(df))
-    names, seen = [], {}
-    for i, n in enumerate(df["tap"]):
-        n = "" if n is None or (isinstance(n, float) and math.isnan(n)) else str(n).strip()
-        if not n:
-            raise InputError(f"{where}, {word} {rows[i]}, column tap: empty tap name")
-        if n in seen:
-            raise InputError(f"{where}, {word} {rows[i]}, column tap: duplicate tap name {n!r} (first on {word} {seen[n]})")
-        seen[n] = rows[i]
-        names.append(n)
-    cols = []
-    for c in ("x", "y", "z"):
-        num = pd.to_numeric(df[c], errors="coerce").to_numpy(dtype=float)
-        bad = np.flatnonzero(~np.isfinite(num))
-        if len(bad):
-            raise InputError(f"{where}, {word} {rows[bad[0]]}, column {c}: {df[c].iloc[bad[0]]!r} is not a number")
-        cols.append(num)
-    sides = [""] * len(names)
-    if "side" in df.columns:
-        sides = ["" if (s is None or (isinstance(s, float) and math.isnan(s))) else str(s).strip().lower()
-                 for s in df["side"]]
-        for i, s in enumerate(sides):
-            if s and s not in ("upper", "lower"):
-                try:
-                    parse_axis(s)
-                except InputError:
-                    raise InputError(f"{where}, {word} {rows[i]}, column side: {s!r} is not upper, lower or a "
-                                     "signed axis like +y") from None
+    """Read the tap layout: columns tap, x, y, z [, side], in the mesh's unit and axes, less ``exclude``."""
+    table = read_taps(path, values=False)
+    known = set(table.names)
     for e in exclude:
-        if e not in seen:
-            raise InputError(f"taps.exclude: {e!r} is not a tap of the layout {path.name}")
-    keep = [i for i, n in enumerate(names) if n not in set(exclude)]
-    pts = np.column_stack(cols)[keep]
-    return TapTable([names[i] for i in keep], pts, np.zeros(len(keep)), "cp", [sides[i] for i in keep], where)
+        if e not in known:
+            raise InputError(f"taps.exclude: {e!r} is not a tap of the layout {Path(path).name}")
+    keep = [i for i, n in enumerate(table.names) if n not in set(exclude)]
+    return TapTable([table.names[i] for i in keep], table.points[keep], table.values[keep], table.kind,
+                    [table.sides[i] for i in keep], table.source)
 
 
 def reduce_run(run: Run, series: Series, rho: float, zero: Series | None = None) -> RunReading:

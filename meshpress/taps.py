@@ -51,7 +51,7 @@ class TapTable:
         return len(self.names)
 
 
-def read_taps(path, *, pressure_unit: str = "Pa") -> TapTable:
+def read_taps(path, *, pressure_unit: str = "Pa", values: bool = True) -> TapTable:
     """Read and validate a tap table.
 
     Parameters
@@ -60,6 +60,9 @@ def read_taps(path, *, pressure_unit: str = "Pa") -> TapTable:
         CSV file (or .xlsx, read with openpyxl).
     pressure_unit : str
         Unit of the ``p`` column (Pa, kPa, hPa, mbar, mmH2O, inH2O, psi).
+    values : bool
+        False reads a tap *layout*: names, positions and sides only (values are
+        zeros of kind "cp"; a ``p`` or ``cp`` column, if any, is ignored).
 
     Returns
     -------
@@ -81,8 +84,9 @@ def read_taps(path, *, pressure_unit: str = "Pa") -> TapTable:
         raise InputError(f"{where}: the tap table has no rows")
     missing = [c for c in ("tap", "x", "y", "z") if c not in df.columns]
     if missing:
-        raise InputError(f"{where}: missing column(s) {', '.join(missing)} (need tap, x, y, z and p or cp)")
-    kinds = [c for c in VALUE_KINDS if c in df.columns]
+        need = "tap, x, y, z and p or cp" if values else "tap, x, y, z"
+        raise InputError(f"{where}: missing column(s) {', '.join(missing)} (need {need})")
+    kinds = [c for c in VALUE_KINDS if c in df.columns] if values else ["cp"]
     if not kinds:
         raise InputError(f"{where}: needs a 'p' (pressure) or a 'cp' column")
     if len(kinds) > 1:
@@ -100,7 +104,7 @@ def read_taps(path, *, pressure_unit: str = "Pa") -> TapTable:
             raise InputError(f"{where}, {word} {rows[i]}, column tap: duplicate tap name {n!r} (first on {word} {seen[n]})")
         seen[n] = rows[i]
     cols = {}
-    for c in ("x", "y", "z", kind):
+    for c in ("x", "y", "z", kind) if values else ("x", "y", "z"):
         num = pd.to_numeric(df[c], errors="coerce")
         bad = np.flatnonzero(~np.isfinite(num.to_numpy(dtype=float)))
         if len(bad):
@@ -109,9 +113,9 @@ def read_taps(path, *, pressure_unit: str = "Pa") -> TapTable:
                 f"{where}, {word} {rows[i]}, column {c}: {df[c].iloc[i]!r} is not a number (tap {names[i]!r})"
             )
         cols[c] = num.to_numpy(dtype=float)
-    values = cols[kind]
+    vals = cols[kind] if values else np.zeros(len(names))
     if kind == "p":
-        values = values * pressure_factor(pressure_unit, "--pressure-unit: ")
+        vals = vals * pressure_factor(pressure_unit, "--pressure-unit: ")
     sides = [""] * len(names)
     if "side" in df.columns:
         for i, s in enumerate(df["side"]):
@@ -127,7 +131,7 @@ def read_taps(path, *, pressure_unit: str = "Pa") -> TapTable:
                     ) from None
             sides[i] = s
     pts = np.column_stack([cols["x"], cols["y"], cols["z"]])
-    return TapTable(names, pts, values, kind, sides, where)
+    return TapTable(names, pts, vals, kind, sides, where)
 
 
 def _row_numbers(path: Path, n: int) -> np.ndarray:

@@ -5,7 +5,7 @@ import pytest
 import trimesh
 
 import meshpress
-from meshpress.body import Axles, Body
+from meshpress.body import Body
 from meshpress.coefficients import axle_split
 from meshpress.integrate import force_and_moment
 
