@@ -2,18 +2,39 @@
 
 Data flow: :func:`load_body` -> :func:`read_taps` -> :func:`project_taps` ->
 a field method (:func:`make_field`) -> :func:`compute_loads` -> :class:`LoadResult`.
+
+The public names are imported on first use, so ``meshpress --help`` starts
+without loading trimesh, scipy or pandas.
 """
 
 __version__ = "0.1.0"
 
-from .analysis import compute_loads, resolve_q, run_loads  # noqa: E402
-from .body import Axles, Body, load_body  # noqa: E402
-from .errors import InputError  # noqa: E402
-from .fields import METHODS, make_field  # noqa: E402
-from .projection import ProjectedTaps, project_taps  # noqa: E402
-from .results import LoadResult, write_json  # noqa: E402
-from .taps import TapTable, read_taps  # noqa: E402
+_PUBLIC = {
+    "compute_loads": "analysis", "resolve_q": "analysis", "run_loads": "analysis",
+    "Axles": "body", "Body": "body", "load_body": "body",
+    "InputError": "errors",
+    "METHODS": "fields", "make_field": "fields",
+    "ProjectedTaps": "projection", "project_taps": "projection",
+    "LoadResult": "results", "write_json": "results",
+    "TapTable": "taps", "read_taps": "taps",
+    "integrate": None, "samples": None,
+}
 
-__all__ = ["Axles", "Body", "InputError", "LoadResult", "METHODS", "ProjectedTaps", "TapTable", "compute_loads",
-           "load_body", "make_field", "project_taps", "read_taps", "resolve_q", "run_loads", "write_json",
-           "__version__"]
+__all__ = sorted(k for k, v in _PUBLIC.items() if v) + ["__version__"]
+
+
+def __getattr__(name):
+    import importlib
+
+    if name not in _PUBLIC:
+        raise AttributeError(f"module 'meshpress' has no attribute {name!r}")
+    mod = _PUBLIC[name]
+    if mod is None:
+        return importlib.import_module(f".{name}", __name__)
+    value = getattr(importlib.import_module(f".{mod}", __name__), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__():
+    return __all__

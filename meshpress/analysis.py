@@ -11,7 +11,9 @@ from .body import Body, load_body
 from .coefficients import ISA_RHO, dynamic_pressure
 from .errors import InputError
 from .fields import make_field
+from .fields.base import Field
 from .integrate import force_and_moment
+from .quadrature import clustered_force_and_moment
 from .progress import Progress
 from .projection import ProjectedTaps, project_taps
 from .results import LoadResult
@@ -28,6 +30,7 @@ def compute_loads(
     ref_area: float | None = None,
     p_ref: float = 0.0,
     frontal_resolution: float = TOL.frontal_resolution_m,
+    quadrature: str = "auto",
     progress: Progress | None = None,
 ) -> LoadResult:
     """Fit a field to the taps and integrate it over the body.
@@ -48,6 +51,13 @@ def compute_loads(
         Reference pressure subtracted everywhere, in the taps' unit (Pa or Cp).
     frontal_resolution : float
         Raster pixel size for the frontal area, m.
+    quadrature : {"auto", "faces", "clusters"}
+        "faces" evaluates the field on every face; "clusters" evaluates it
+        once per cluster of faces (:mod:`meshpress.quadrature`, cells of
+        ``TOL.cluster_cell_m``); "auto" clusters bodies of more than
+        ``TOL.cluster_min_faces`` faces when the method can be evaluated at
+        arbitrary surface points.  ``result.face_values`` is None after
+        clustering; ``result.field`` can still give them.
 
     Returns
     -------
@@ -59,16 +69,18 @@ def compute_loads(
     if ref_area is not None and not (ref_area > 0):
         raise InputError(f"reference area must be positive, got {ref_area:g} m2")
     field = field or make_field("rbf")
+    if ref_area is None:
+        # The frontal-area raster needs nothing from the field: it runs on the second core meanwhile.
+        body.prefetch(frontal_resolution=frontal_resolution)
     with progress.step(f"fitting {field.name} field"):
         field.fit(body, taps, progress=progress)
-    values = field.face_values(progress=progress)
+    F, M, values, quad = _integrate(body, field, quadrature, p_ref, progress)
     r0 = np.zeros(3)
     warnings = list(body.warnings) + list(field.warnings_)
     if body.axles is None:
         # Ground point under the body's centre: the frame origin when no axles are given.
         warnings.append("no axle positions given: moment taken about the ground under the body's centre; "
                         "axle figures left out")
-    F, M = force_and_moment(body.area_vectors, body.centroids, values, r0, p_ref)
     if taps.kind == "p":
         force, moment = F, M
         per_q = (F / q, M / q) if q else (None, None)
@@ -106,8 +118,29 @@ def compute_loads(
         taps=tap_rows,
         mesh=body.report.to_dict() if body.report else {},
         inputs={"mesh": body.source, "meshpress": __version__},
+        quadrature=quad,
         face_values=values,
+        field=field,
     )
+
+
+def _integrate(body, field, quadrature, p_ref, progress):
+    """Force and moment about the origin, face by face or by clusters; see compute_loads."""
+    if quadrature not in ("auto", "faces", "clusters"):
+        raise InputError(f"quadrature must be auto, faces or clusters, got {quadrature!r}")
+    pointwise = type(field).at_points is not Field.at_points
+    if quadrature == "clusters" and not pointwise:
+        raise InputError(f"the {field.name} method gives face values only; use quadrature='faces'")
+    if quadrature == "clusters" or (quadrature == "auto" and pointwise and body.n_faces > TOL.cluster_min_faces):
+        with progress.step("clustering faces"):
+            clusters = body.clusters(TOL.cluster_cell_m)
+        with progress.step("evaluating field"):
+            F, M = clustered_force_and_moment(clusters, field.at_points(clusters.points), np.zeros(3), p_ref)
+        return F, M, None, f"clustered midpoint rule ({len(clusters):,} clusters of {clusters.cell * 1000:g} mm)"
+    with progress.step("evaluating field"):
+        values = field.face_values(progress=progress)
+    F, M = force_and_moment(body.area_vectors, body.centroids, values, np.zeros(3), p_ref)
+    return F, M, values, "every face"
 
 
 def resolve_q(q=None, speed=None, air_density=None) -> float | None:
@@ -151,6 +184,9 @@ def run_loads_parts(mesh, taps_file, *, length_unit="m", up="+z", forward="-x", 
     progress = progress or Progress(enabled=False)
     body = load_body(mesh, length_unit=length_unit, up=up, forward=forward, front_axle=front_axle,
                      rear_axle=rear_axle, ground=ground, progress=progress)
+    # Start the frontal area and (for big bodies) the face clusters on the second core.
+    body.prefetch(frontal_resolution=None if ref_area is not None else TOL.frontal_resolution_m,
+                  cluster_cell=TOL.cluster_cell_m if body.n_faces > TOL.cluster_min_faces else None)
     table = read_taps(taps_file, pressure_unit=pressure_unit)
     with progress.step("projecting taps"):
         projected = project_taps(body, table, max_distance=max_tap_distance)

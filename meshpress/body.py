@@ -11,7 +11,6 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from functools import cached_property
-from pathlib import Path
 
 import numpy as np
 
@@ -19,6 +18,7 @@ from . import orient
 from .diagnostics import MeshReport, boundary_loops
 from .errors import InputError
 from .frame import FrameMap, rotation
+from .grouping import group
 from .progress import Progress
 from .readers import read_surface
 from .tolerances import TOL
@@ -75,6 +75,11 @@ class Body:
         self.warnings = list(warnings or [])
         self.source = source
 
+    def _seed(self, **arrays):
+        """Fill caches with arrays the loader already computed (same geometry, so same values)."""
+        for name, a in arrays.items():
+            self.__dict__[name] = _readonly(np.ascontiguousarray(a, dtype=float))
+
     @property
     def n_faces(self) -> int:
         return len(self.faces)
@@ -116,10 +121,15 @@ class Body:
         return cKDTree(self.centroids)
 
     @cached_property
+    def face_radius(self) -> np.ndarray:
+        """(m,) float: largest distance (m) from each face's centroid to its corners."""
+        d = self.triangles - self.centroids[:, None, :]
+        return _readonly(np.sqrt(np.einsum("ijk,ijk->ij", d, d).max(axis=1)))
+
+    @property
     def max_face_radius(self) -> float:
         """Largest distance (m) from a face centroid to one of its corners."""
-        d = np.linalg.norm(self.triangles - self.centroids[:, None, :], axis=2)
-        return float(d.max())
+        return float(self.face_radius.max())
 
     @cached_property
     def vertex_faces_matrix(self):
@@ -149,15 +159,66 @@ class Body:
         return float(np.ptp(self.vertices[:, 0]))
 
     def frontal_area(self, resolution: float = TOL.frontal_resolution_m) -> float:
-        """Projected area on the y-z plane (m2), rasterised at ``resolution`` m."""
+        """Projected area on the y-z plane (m2), rasterised at ``resolution`` m (cached)."""
+        return self._cached(("frontal", resolution), self._frontal_area_now, resolution)
+
+    def _frontal_area_now(self, resolution):
         from .frontal import frontal_area
 
-        return frontal_area(self.triangles, resolution)
+        tri = self.triangles
+        if self.report is not None and self.report.watertight:
+            # Closed: the front-facing faces already cover the whole silhouette.
+            tri = tri[self.area_vectors[:, 0] < 0]
+        return frontal_area(tri, resolution)
+
+    def clusters(self, cell: float):
+        """Face clusters for :mod:`meshpress.quadrature`, cells of ``cell`` m (cached)."""
+        from .quadrature import cluster_faces
+
+        return self._cached(("clusters", cell), cluster_faces, self.centroids, self.area_vectors, cell)
+
+    def prefetch(self, *, frontal_resolution: float | None = None, cluster_cell: float | None = None) -> None:
+        """Start the frontal area and the face clusters on a second thread.
+
+        Both are pure array work in which numpy releases the GIL, so on a
+        two-core machine they run beside tap projection and field fitting; the
+        first call of :meth:`frontal_area` or :meth:`clusters` then waits for it.
+        """
+        from concurrent.futures import ThreadPoolExecutor
+
+        jobs = []
+        if frontal_resolution is not None:
+            jobs.append((("frontal", frontal_resolution), self._frontal_area_now, (frontal_resolution,)))
+        if cluster_cell is not None:
+            from .quadrature import cluster_faces
+
+            jobs.append((("clusters", cluster_cell), cluster_faces, (self.centroids, self.area_vectors, cluster_cell)))
+        jobs = [j for j in jobs if j[0] not in self._cache]
+        if not jobs:
+            return
+        pool = ThreadPoolExecutor(max_workers=1, thread_name_prefix="meshpress-prefetch")
+        for key, fn, args in jobs:
+            self._cache[key] = pool.submit(fn, *args)
+        pool.shutdown(wait=False)
+
+    @property
+    def _cache(self) -> dict:
+        return self.__dict__.setdefault("_derived", {})
+
+    def _cached(self, key, fn, *args):
+        from concurrent.futures import Future
+
+        v = self._cache.get(key)
+        if isinstance(v, Future):
+            v = v.result()
+        elif v is None:
+            v = fn(*args)
+        self._cache[key] = v
+        return v
 
     def volume(self) -> float:
-        """Enclosed volume (m3) by the divergence theorem: meaningful when closed."""
-        t = self.triangles
-        return float(np.einsum("ij,ij->", t[:, 0], np.cross(t[:, 1], t[:, 2])) / 6.0)
+        """Enclosed volume (m3) by the divergence theorem, V = 1/3 sum c . n dA: meaningful when closed."""
+        return float(np.einsum("ij,ij->", self.centroids, self.area_vectors) / 3.0)
 
     def volume_centroid(self) -> np.ndarray:
         """(3,) float: centroid of the enclosed volume, m (closed bodies)."""
@@ -209,7 +270,7 @@ def load_body(
     with progress.step("reading mesh"):
         v, f, parts = read_surface(path)
     with progress.step("cleaning mesh"):
-        v, f, merged, dropped = _clean(v, f)
+        v, f, av, merged, dropped = _clean(v, f)
     p = scale * v @ R.T
     # Origin: ground (lowest point or given), mid-wheelbase (or mid-length), mid-track.
     frame = FrameMap(R, scale, np.zeros(3))
@@ -240,16 +301,27 @@ def load_body(
     frame = FrameMap(R, scale, origin)
     p = p - origin
     with progress.step("orienting faces"):
-        fa, fb, same_dir, _ = orient.edge_pairs(f)
+        fa, fb, same_dir, boundary, bface = orient.edge_pairs(f)
         flip, part, orientable = orient.consistent_flip(f, fa, fb, same_dir)
+        # R is a proper rotation, so the area vectors rotate with the points and scale with its square.
+        av = (scale * scale) * av @ R.T
+        tri = p[f]
+        centroids = tri.mean(axis=1)
+        av[flip] *= -1.0
+        out = orient.outward_flip(centroids, av, part)
+        total_flip = flip ^ out
+        av[out] *= -1.0
         f = f.copy()
-        f[flip] = f[flip][:, ::-1]
-        out = orient.outward_flip(p, f, part)
-        f[out] = f[out][:, ::-1]
-        n_flipped = int(np.count_nonzero(flip ^ out))
-        # Edge structure after orientation, for the diagnostics.
-        fa, fb, same_dir, boundary = orient.edge_pairs(f)
+        f[total_flip] = f[total_flip][:, ::-1]
+        tri[total_flip] = tri[total_flip][:, ::-1]
+        n_flipped = int(np.count_nonzero(total_flip))
+        # Edge structure after orientation, for the diagnostics: reversing a face reverses its edges.
+        same_dir = same_dir ^ total_flip[fa] ^ total_flip[fb]
+        rev = total_flip[bface]
+        boundary = boundary.copy()
+        boundary[rev] = boundary[rev][:, ::-1]
     body = Body(p, f, frame=frame, axles=axles, source=str(path))
+    body._seed(triangles=tri, centroids=centroids, area_vectors=av)
     with progress.step("checking mesh"):
         holes = boundary_loops(boundary, p)
         n_edges_used = 3 * len(f)
@@ -304,6 +376,8 @@ def _clean(v: np.ndarray, f: np.ndarray):
     -------
     v : (n, 3) float
     f : (m, 3) int
+    area_vectors : (m, 3) float
+        Half the edge cross product of every face (n dA as wound), mesh units.
     merged : int
         Vertices removed by merging.
     dropped : int
@@ -312,30 +386,41 @@ def _clean(v: np.ndarray, f: np.ndarray):
     n0, m0 = len(v), len(f)
     if f.min() < 0 or f.max() >= n0:
         raise InputError("mesh faces refer to vertices that do not exist")
-    span = float(np.ptp(v, axis=0).max()) or 1.0
-    q = np.round(v / (span * 10.0 ** -TOL.merge_digits)).astype(np.int64)
-    _, first, inv = np.unique(q, axis=0, return_index=True, return_inverse=True)
-    inv = inv.ravel()
+    lo = v.min(axis=0)
+    span = float((v.max(axis=0) - lo).max()) or 1.0
+    # floor(x + 1/2) rounds the non-negative scaled coordinates in one pass.
+    q = ((v - lo) * (10.0**TOL.merge_digits / span) + 0.5).astype(np.int64)
+    # Pack the three quantised coordinates (< 2**21 each) into one int64: a 1D unique is several
+    # times faster than np.unique(axis=0) on millions of rows.
+    key = (q[:, 0] << 42) | (q[:, 1] << 21) | q[:, 2]
+    inv, first, _, _ = group(key)
     v = v[first]
     f = inv[f]
     merged = n0 - len(v)
     # Degenerate: repeated index or (near) zero area.
     rep = (f[:, 0] == f[:, 1]) | (f[:, 1] == f[:, 2]) | (f[:, 2] == f[:, 0])
     t = v[f]
-    area = 0.5 * np.linalg.norm(np.cross(t[:, 1] - t[:, 0], t[:, 2] - t[:, 0]), axis=1)
+    cr = np.cross(t[:, 1] - t[:, 0], t[:, 2] - t[:, 0])
+    area = 0.5 * np.sqrt(np.einsum("ij,ij->i", cr, cr))
     med = np.median(area[~rep]) if np.any(~rep) else 0.0
     keep = ~rep & (area > TOL.degenerate_area_rel * med)
-    f = f[keep]
+    f, cr = f[keep], cr[keep]
     # Duplicate faces (same three vertices in any order).
-    _, uniq = np.unique(np.sort(f, axis=1), axis=0, return_index=True)
-    f = f[np.sort(uniq)]
+    sf = np.sort(f, axis=1)
+    n = int(sf.max()) + 1
+    if n < 2**21:  # n**3 fits in an int64: one key per face
+        _, uniq, _, _ = group((sf[:, 0] * n + sf[:, 1]) * n + sf[:, 2])
+    else:
+        _, uniq = np.unique(sf, axis=0, return_index=True)
+    uniq = np.sort(uniq)
+    f, cr = f[uniq], cr[uniq]
     if len(f) == 0:
         raise InputError("the mesh has no faces left after dropping degenerate ones")
     used = np.zeros(len(v), dtype=bool)
     used[f.ravel()] = True
     remap = np.cumsum(used) - 1
     v, f = v[used], remap[f]
-    return v, f, merged, m0 - len(f)
+    return v, f, 0.5 * cr, merged, m0 - len(f)
 
 
 def _size_warnings(extent: np.ndarray, unit: str, scale: float) -> list[str]:

@@ -15,7 +15,7 @@ import sys
 from . import __version__
 from .errors import InputError
 
-COMMANDS = ["loads", "demo", "view"]
+COMMANDS = ["loads", "demo", "run", "diff", "view"]
 
 
 class _Parser(argparse.ArgumentParser):

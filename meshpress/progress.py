@@ -6,7 +6,9 @@ number of chunks (``track``).
 
 from __future__ import annotations
 
+import os
 import sys
+import time
 from contextlib import contextmanager
 
 
@@ -22,6 +24,9 @@ class Progress:
     def __init__(self, enabled: bool | None = None):
         self.enabled = sys.stderr.isatty() if enabled is None else bool(enabled)
         self._console = None
+        #: label -> seconds of every finished step; printed to stderr when MESHPRESS_TIMINGS=1.
+        self.timings: dict[str, float] = {}
+        self._print_timings = os.environ.get("MESHPRESS_TIMINGS") == "1"
 
     def _get_console(self):
         if self._console is None:
@@ -33,11 +38,18 @@ class Progress:
     @contextmanager
     def step(self, label: str):
         """Spinner around a step of unknown length."""
-        if not self.enabled:
-            yield
-            return
-        with self._get_console().status(label + " ..."):
-            yield
+        t0 = time.perf_counter()
+        try:
+            if not self.enabled:
+                yield
+            else:
+                with self._get_console().status(label + " ..."):
+                    yield
+        finally:
+            dt = time.perf_counter() - t0
+            self.timings[label] = self.timings.get(label, 0.0) + dt
+            if self._print_timings:
+                sys.stderr.write(f"[timing] {label}: {dt:.3f} s\n")
 
     def track(self, iterable, total: int, label: str):
         """Iterate with a progress bar over ``total`` items."""

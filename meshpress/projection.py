@@ -106,6 +106,7 @@ def nearest_on_faces(body: Body, points: np.ndarray, allowed: np.ndarray | None 
     out_p = np.empty_like(points)
     out_f = np.empty(len(points), dtype=np.int64)
     out_d = np.empty(len(points))
+    # Exact: a face holding a point at distance d has its centroid within d + its own radius.
     for i, (p, r) in enumerate(zip(points, d0 + rmax)):
         cand = idx_all[np.asarray(tree.query_ball_point(p, r * (1 + 1e-9) + 1e-12), dtype=np.int64)]
         tri = body.triangles[cand]

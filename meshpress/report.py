@@ -145,10 +145,11 @@ class _null_step:
 
 
 def missing_libraries() -> list[str]:
-    """The display libraries the report needs that are not installed (pip install 'meshpress[view]')."""
+    """The display libraries (pip names) that the report and views need and that are not installed."""
     import importlib.util
 
-    return [m for m in ("pyvista", "matplotlib", "PIL", "cmcrameri") if importlib.util.find_spec(m) is None]
+    mods = {"pyvista": "pyvista", "matplotlib": "matplotlib", "PIL": "pillow", "cmcrameri": "cmcrameri"}
+    return [pip for mod, pip in mods.items() if importlib.util.find_spec(mod) is None]
 
 
 def write_report(run, out_dir, *, protect=(), progress=None, title=None, demo_note=None, images=True,
@@ -182,7 +183,7 @@ def write_report(run, out_dir, *, protect=(), progress=None, title=None, demo_no
 
     missing = missing_libraries()
     if missing:
-        raise InputError(f"the report needs {', '.join(missing)}: pip install 'meshpress[view]'")
+        raise InputError(f"the report needs {', '.join(missing)}: pip install {' '.join(missing)}")
     for name in ("report.html", "loads.json", "body_field.vtp", "taps.csv"):  # before anything is written
         check_not_input(out / name, protect)
     out.mkdir(parents=True, exist_ok=True)

@@ -42,7 +42,11 @@ class LoadResult:
     taps: list = field(default_factory=list)
     mesh: dict = field(default_factory=dict)
     inputs: dict = field(default_factory=dict)
+    quadrature: str = "every face"
+    #: (m,) face values (Pa or Cp) when the loads were summed face by face, else None.
     face_values: np.ndarray | None = field(default=None, repr=False)
+    #: The fitted field method (for views that need face values after clustered quadrature).
+    field: object = field(default=None, repr=False)
 
     # Figures derived from the vectors above -------------------------------------------------
     def _f(self, k):
@@ -128,6 +132,7 @@ class LoadResult:
             q_Pa=self.q_Pa,
             ref_area_m2=self.ref_area_m2,
             ref_area_source=self.ref_area_source,
+            quadrature=self.quadrature,
             wheelbase_m=self.wheelbase_m,
             method=self.method,
             p_ref=self.p_ref,

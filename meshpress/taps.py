@@ -51,7 +51,7 @@ class TapTable:
         return len(self.names)
 
 
-def read_taps(path, *, pressure_unit: str = "Pa") -> TapTable:
+def read_taps(path, *, pressure_unit: str = "Pa", values: bool = True) -> TapTable:
     """Read and validate a tap table.
 
     Parameters
@@ -60,6 +60,9 @@ def read_taps(path, *, pressure_unit: str = "Pa") -> TapTable:
         CSV file (or .xlsx, read with openpyxl).
     pressure_unit : str
         Unit of the ``p`` column (Pa, kPa, hPa, mbar, mmH2O, inH2O, psi).
+    values : bool
+        False reads a tap *layout*: names, positions and sides only (values are
+        zeros of kind "cp"; a ``p`` or ``cp`` column, if any, is ignored).
 
     Returns
     -------
@@ -81,37 +84,38 @@ def read_taps(path, *, pressure_unit: str = "Pa") -> TapTable:
         raise InputError(f"{where}: the tap table has no rows")
     missing = [c for c in ("tap", "x", "y", "z") if c not in df.columns]
     if missing:
-        raise InputError(f"{where}: missing column(s) {', '.join(missing)} (need tap, x, y, z and p or cp)")
-    kinds = [c for c in VALUE_KINDS if c in df.columns]
+        need = "tap, x, y, z and p or cp" if values else "tap, x, y, z"
+        raise InputError(f"{where}: missing column(s) {', '.join(missing)} (need {need})")
+    kinds = [c for c in VALUE_KINDS if c in df.columns] if values else ["cp"]
     if not kinds:
         raise InputError(f"{where}: needs a 'p' (pressure) or a 'cp' column")
     if len(kinds) > 1:
         raise InputError(f"{where}: has both 'p' and 'cp' columns; keep one")
     kind = kinds[0]
-    rows = _row_numbers(path, len(df))
+    rows, word = _row_numbers(path, len(df))
     names = df["tap"]
     for i, name in enumerate(names):
         if pd.isna(name) or str(name).strip() == "":
-            raise InputError(f"{where}, row {rows[i]}, column tap: empty tap name")
+            raise InputError(f"{where}, {word} {rows[i]}, column tap: empty tap name")
     names = [str(n).strip() for n in names]
     seen = {}
     for i, n in enumerate(names):
         if n in seen:
-            raise InputError(f"{where}, row {rows[i]}, column tap: duplicate tap name {n!r} (first on row {seen[n]})")
+            raise InputError(f"{where}, {word} {rows[i]}, column tap: duplicate tap name {n!r} (first on {word} {seen[n]})")
         seen[n] = rows[i]
     cols = {}
-    for c in ("x", "y", "z", kind):
+    for c in ("x", "y", "z", kind) if values else ("x", "y", "z"):
         num = pd.to_numeric(df[c], errors="coerce")
         bad = np.flatnonzero(~np.isfinite(num.to_numpy(dtype=float)))
         if len(bad):
             i = bad[0]
             raise InputError(
-                f"{where}, row {rows[i]}, column {c}: {df[c].iloc[i]!r} is not a number (tap {names[i]!r})"
+                f"{where}, {word} {rows[i]}, column {c}: {df[c].iloc[i]!r} is not a number (tap {names[i]!r})"
             )
         cols[c] = num.to_numpy(dtype=float)
-    values = cols[kind]
+    vals = cols[kind] if values else np.zeros(len(names))
     if kind == "p":
-        values = values * pressure_factor(pressure_unit, "--pressure-unit: ")
+        vals = vals * pressure_factor(pressure_unit, "--pressure-unit: ")
     sides = [""] * len(names)
     if "side" in df.columns:
         for i, s in enumerate(df["side"]):
@@ -123,21 +127,21 @@ def read_taps(path, *, pressure_unit: str = "Pa") -> TapTable:
                     parse_axis(s)
                 except InputError:
                     raise InputError(
-                        f"{where}, row {rows[i]}, column side: {s!r} is not upper, lower or a signed axis like +y"
+                        f"{where}, {word} {rows[i]}, column side: {s!r} is not upper, lower or a signed axis like +y"
                     ) from None
             sides[i] = s
     pts = np.column_stack([cols["x"], cols["y"], cols["z"]])
-    return TapTable(names, pts, values, kind, sides, where)
+    return TapTable(names, pts, vals, kind, sides, where)
 
 
 def _row_numbers(path: Path, n: int) -> np.ndarray:
-    """File line (CSV) or sheet row (xlsx) of each data row, 1-based."""
+    """File line (CSV) or sheet row (xlsx) of each data row, 1-based, and the word for it."""
     if path.suffix.lower() in (".xlsx", ".xlsm"):
-        return np.arange(n) + 2
+        return np.arange(n) + 2, "row"
     with open(path, encoding="utf-8", errors="replace") as fh:
         data = [i + 1 for i, line in enumerate(fh) if line.strip() and not line.lstrip().startswith("#")]
     rows = np.array(data[1 : n + 1])
-    return rows if len(rows) == n else np.arange(n) + 2
+    return (rows, "line") if len(rows) == n else (np.arange(n) + 2, "row")
 
 
 def _read_frame(path: Path) -> pd.DataFrame:

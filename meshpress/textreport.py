@@ -27,6 +27,7 @@ def format_result(r: LoadResult) -> str:
     lines.append("")
     lines.append(f"  q {_fmt(r.q_Pa, ',.1f')} Pa   reference area {r.ref_area_m2:.3f} m2 ({r.ref_area_source})")
     lines.append(f"  wheelbase {_fmt(r.wheelbase_m, '.3f')} m   field: {r.method}   taps: {len(r.taps)}")
+    lines.append(f"  integrated over: {r.quadrature}")
     if r.taps:
         far = max(r.taps, key=lambda t: t["distance_m"])
         lines.append(f"  largest tap projection: {far['distance_m'] * 1000:.1f} mm ({far['name']})")

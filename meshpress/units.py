@@ -42,7 +42,11 @@ SPEED_UNITS = {"m/s": "meter / second", "km/h": "kilometer / hour", "mph": "mile
 def _registry():
     import pint
 
-    ureg = pint.UnitRegistry()
+    try:
+        # Parsing pint's definition file costs ~1 s; its on-disk cache makes later starts ~0.1 s.
+        ureg = pint.UnitRegistry(cache_folder=":auto:")
+    except Exception:  # read-only home or missing cache backend: parse every time
+        ureg = pint.UnitRegistry()
     # Pin the water-column meaning ourselves rather than rely on the library's
     # alias of the day: 1000 kg/m3 water under standard gravity (conventional).
     ureg.define("mm_water_conventional = 1e-3 * meter * 1000 * kilogram / meter ** 3 * g_0")

@@ -169,7 +169,7 @@ def _cmap():
         from cmcrameri import cm
 
         return cm.vik
-    except ImportError:  # pragma: no cover - cmcrameri is a dependency of the view extra
+    except ImportError:  # pragma: no cover - cmcrameri is a dependency
         return "coolwarm"
 
 

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import sys
 
 import numpy as np
 import pytest
@@ -209,21 +208,6 @@ def test_decimated_copy_for_big_meshes_keeps_the_field():
     assert dec and small.n_cells < 0.5 * body.n_faces
     # Clustering keeps original vertices, so each value is the field at that very point.
     np.testing.assert_allclose(small.point_data["value"], np.asarray(small.points)[:, 2], atol=1e-12)
-
-
-@pytest.mark.slow
-def test_loads_without_report_does_not_import_the_display_libraries(samples_dir):
-    import subprocess
-
-    code = (
-        "import sys; from meshpress.cli import main; "
-        f"main(['loads', r'{samples_dir / 'coupe.stl'}', r'{samples_dir / 'coupe_taps.csv'}', '--length-unit', 'mm',"
-        " '--up=+y', '--forward=-z', '--quiet']); "
-        "print('LOADED', [m for m in ('pyvista', 'vtk', 'matplotlib') if m in sys.modules])"
-    )
-    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=300)
-    assert out.returncode == 0, out.stderr
-    assert "LOADED []" in out.stdout
 
 
 def _lightness(rgb):

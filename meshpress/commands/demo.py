@@ -55,7 +55,7 @@ def run(args) -> int:
         from ..report import missing_libraries, write_report
 
         if missing_libraries():
-            print(f"  no report: it needs {', '.join(missing_libraries())} (pip install 'meshpress[view]')")
+            print(f"  no report: it needs {', '.join(missing_libraries())} (pip install {' '.join(missing_libraries())})")
             return 0
 
         files = write_report(run, out, protect=(mesh, taps), progress=progress,

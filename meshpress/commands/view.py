@@ -55,7 +55,7 @@ def run(args) -> int:
     from ..report import missing_libraries
 
     if missing_libraries():
-        raise InputError(f"view needs {', '.join(missing_libraries())}: pip install 'meshpress[view]'")
+        raise InputError(f"view needs {', '.join(missing_libraries())}: pip install {' '.join(missing_libraries())}")
     size = _size(args.size)
     if not args.png and not has_display():
         raise InputError("no display to open a window on; give --png OUT to write a picture instead")

@@ -1,0 +1,149 @@
+"""``meshpress run SHEET.toml``: a whole test from its test sheet."""
+
+from __future__ import annotations
+
+import io
+import json
+from pathlib import Path
+
+
+def add_parser(sub):
+    p = sub.add_parser("run", help="process a whole test described by a test sheet (TOML)",
+                       description="Read the test sheet, reduce every run's readings to Cp, average the runs of "
+                                   "each configuration, compute the loads, compare configurations, scale to other "
+                                   "speeds and write a results folder.  See docs/test-sheet.md.")
+    p.add_argument("sheet", help="test sheet, TOML")
+    p.add_argument("--out", metavar="DIR", help="results folder (default: SHEET-results next to the sheet)")
+    p.add_argument("--no-plot", action="store_true", help="do not draw speeds.png (no matplotlib needed)")
+    p.add_argument("--quiet", action="store_true", help="no progress display")
+    p.set_defaults(run=run)
+    return p
+
+
+def _npy(a) -> bytes:
+    import numpy as np
+
+    buf = io.BytesIO()
+    np.save(buf, np.asarray(a, dtype=float))
+    return buf.getvalue()
+
+
+def result_files(result, *, plot=True) -> dict:
+    """Relative path -> content of every output file of a test."""
+    from .. import __version__
+    from ..results import CAUTION, _clean
+    from ..runs import _safe, configuration_to_dict, run_to_dict, speed_csv, summary_csv
+    from ..speed import plot_speed_tables
+
+    dump = (lambda d: json.dumps(_clean(d), indent=2) + "\n")
+    files = {"summary.csv": summary_csv(result)}
+    for r in result.runs:
+        files[f"runs/{_safe(r.run.name)}.json"] = dump(run_to_dict(r))
+    tables = {}
+    for name, c in result.configurations.items():
+        files[f"configurations/{_safe(name)}.json"] = dump(configuration_to_dict(c))
+        files[f"configurations/{_safe(name)}.faces.npy"] = _npy(c.load.face_values)
+        if c.speeds:
+            files[f"speeds/{_safe(name)}.csv"] = speed_csv(c, result.sheet.speed_unit)
+            tables[name] = c.speeds
+    for d in result.comparisons:
+        stem = f"comparisons/{_safe(d['base'])}__vs__{_safe(d['other'])}"
+        faces = d.pop("face_delta_cp", None)
+        if faces is not None:
+            files[stem + ".faces.npy"] = _npy(faces)
+            d["face_delta_cp_file"] = Path(stem).name + ".faces.npy"
+        files[stem + ".json"] = dump(d)
+    if plot and tables:
+        files["speeds.png"] = (lambda path: plot_speed_tables(tables, path, unit=result.sheet.speed_unit,
+                                                              title=result.sheet.title,
+                                                              static=result.sheet.vehicle.static_load))
+    files["test.json"] = dump({"title": result.sheet.title, "sheet": str(result.sheet.path),
+                               "air": result.sheet.air.describe(), "notes": result.warnings,
+                               "configurations": list(result.configurations), "caution": CAUTION,
+                               "meshpress": __version__})
+    return files
+
+
+def _c(v, width=8):
+    """A coefficient, signed, 3 decimals; n/a when it could not be computed (e.g. no axles)."""
+    return f"{'n/a' if v is None else format(v, '+.3f'):>{width}}"
+
+
+def format_test(result) -> str:
+    """The readable summary printed by ``meshpress run``."""
+    from ..results import CAUTION
+    from ..speed import SPEED_CAUTION
+    from ..units import speed_factor
+
+    s = result.sheet
+    rho = s.air.density()[0]
+    out = [f"meshpress run: {s.title}", f"  air: {s.air.describe()} -> rho {rho:.4f} kg/m3 (CIPM-2007)", ""]
+    out.append(f"  {'run':<22}{'config':<14}{'window s':>13}{'q Pa':>9}{'CL':>8}{'CD':>8}{'CLF':>8}{'CLR':>8}")
+    for r in result.runs:
+        w = r.reading.window_s
+        ws = f"{w[0]:.0f}-{w[1]:.0f}" if w else "all"
+        L = r.load
+        out.append(f"  {r.run.name:<22}{r.run.configuration:<14}{ws:>13}{r.reading.q_Pa:>9.1f}{_c(L.CL)}"
+                   f"{_c(L.CD)}{_c(L.CLF)}{_c(L.CLR)}")
+    out += ["", f"  {'configuration':<18}{'runs':>5}{'CL':>8}{'+-':>7}{'CD':>8}{'CLF':>8}{'CLR':>8}{'front %':>9}"]
+    for name, c in result.configurations.items():
+        L = c.load
+        half = c.spread.get("CL", {}).get("range", 0.0) / 2
+        fs = "n/a" if L.front_share is None else f"{100 * L.front_share:.1f}"
+        out.append(f"  {name:<18}{len(c.runs):>5}{_c(L.CL)}{half:>7.3f}{_c(L.CD)}{_c(L.CLF)}{_c(L.CLR)}{fs:>9}")
+    out.append("  (+- is half the spread of CL between the configuration's runs)")
+    for d in result.comparisons:
+        dd = d["delta"]
+        fs = "n/a" if dd["front_share"] is None else f"{100 * dd['front_share']:+.1f} points"
+        out.append(f"\n  {d['other']} vs {d['base']}: dCL {_c(dd['CL'], 0)}  dCD {_c(dd['CD'], 0)}  "
+                   f"dCLF {_c(dd['CLF'], 0)}  dCLR {_c(dd['CLR'], 0)}  front share {fs}")
+        big = sorted(d["taps"], key=lambda t: -abs(t["delta_cp"]))[:3]
+        out.append("    largest tap changes: " + ", ".join(f"{t['name']} {t['delta_cp']:+.3f}" for t in big))
+    unit = s.speed_unit
+    f = speed_factor(unit)
+    for name, c in result.configurations.items():
+        if not c.speeds:
+            continue
+        t = c.speeds
+        i = len(t["speed_mps"]) - 1
+        line = (f"\n  {name} at {t['speed_mps'][i] / f:.0f} {unit}: lift {t['lift_N'][i]:+,.0f} N, "
+                f"drag {t['drag_N'][i]:,.0f} N")
+        if "front_axle_load_N" in t:
+            line += (f", axle loads front {t['front_axle_load_N'][i]:,.0f} N / rear {t['rear_axle_load_N'][i]:,.0f} N"
+                     f", aero adds {100 * t['weight_share_added'][i]:+.1f} % of the weight")
+        out.append(line)
+    warnings = list(result.warnings)
+    for c in result.configurations.values():
+        for w in c.warnings:
+            if w not in warnings:
+                warnings.append(w)
+    for w in result.runs[0].load.warnings if result.runs else []:
+        if w not in warnings and "q comes from" not in w:
+            warnings.append(w)
+    if warnings:
+        out.append("")
+        out += [f"  warning: {w}" for w in warnings]
+    if any(c.speeds for c in result.configurations.values()):
+        out += ["", f"  Speeds: {SPEED_CAUTION}"]
+    out += ["", f"  Caution: {CAUTION}"]
+    return "\n".join(out)
+
+
+def run(args) -> int:
+    from ..progress import Progress
+    from ..resultsdir import check_output_dir, write_folder
+    from ..runs import process_sheet
+    from ..sheet import read_sheet
+
+    sheet = read_sheet(args.sheet)
+    out = Path(args.out) if args.out else sheet.path.parent / f"{sheet.path.stem}-results"
+    inputs = sheet.input_files()
+    check_output_dir(out, inputs)  # before the work, so a bad --out fails fast
+    progress = Progress(enabled=False if args.quiet else None)
+    result = process_sheet(sheet, progress)
+    print(format_test(result))
+    files = result_files(result, plot=not args.no_plot)
+    write_folder(out, files, inputs=inputs, manifest={"sheet": str(sheet.path)})
+    print(f"\n  wrote {out}/ ({len(files) + 1} files: summary.csv, runs/, configurations/, comparisons/"
+          + (", speeds/" if any(k.startswith("speeds/") for k in files) else "") + ")")
+    return 0

@@ -1,0 +1,172 @@
+"""The loader: file formats, cleaning, orientation, frame, diagnostics, frontal area."""
+
+import meshio
+import numpy as np
+import pytest
+import trimesh
+
+import meshpress
+from meshpress.errors import InputError
+
+from conftest import icosphere
+
+
+def _soup(v, f):
+    """Triangle soup: every face with its own three vertices, as in an STL file."""
+    tri = v[f]
+    return tri.reshape(-1, 3), np.arange(3 * len(f)).reshape(-1, 3)
+
+
+def test_soup_with_flipped_faces_becomes_closed_outward(tmp_path):
+    v, f = icosphere(3, radius=0.5, center=(0, 0, 0.5))
+    volume = trimesh.Trimesh(v, f).volume  # trimesh's mass properties, before we spoil the winding
+    rng = np.random.default_rng(1)
+    f = f.copy()
+    flip = rng.random(len(f)) < 0.2
+    f[flip] = f[flip][:, ::-1]
+    sv, sf = _soup(v, f)
+    path = tmp_path / "ball.stl"
+    trimesh.Trimesh(sv, sf, process=False).export(path)
+    b = meshpress.load_body(path)
+    r = b.report
+    assert r.watertight and r.holes == 0
+    assert r.faces == len(f) and r.vertices == len(v)
+    assert r.flipped_faces == flip.sum()
+    # Outward: every normal points away from the centre (checked against trimesh's own test).
+    m = trimesh.Trimesh(b.vertices, b.faces, process=False)
+    assert m.is_winding_consistent and m.volume > 0
+    c = b.centroids - b.centroids.mean(axis=0)
+    assert np.all(np.einsum("ij,ij->i", c, b.face_normals) > 0)
+    # Volume against trimesh's mass properties of the same polyhedron.
+    assert r.volume_m3 == pytest.approx(volume, rel=1e-6)  # STL stores float32
+
+
+def test_inside_out_body_is_turned_outward(tmp_path):
+    v, f = icosphere(3)
+    path = tmp_path / "inv.ply"
+    trimesh.Trimesh(v, f[:, ::-1], process=False).export(path)
+    b = meshpress.load_body(path)
+    assert b.volume() > 0 and b.report.flipped_faces == len(f)
+
+
+def test_holes_and_closure(tmp_path):
+    # Cut a polar cap off a unit sphere: one hole whose area is about that of the cut circle.
+    v, f = icosphere(5)
+    c = v[f].mean(axis=1)
+    keep = c[:, 2] < 0.8
+    path = tmp_path / "cut.obj"
+    m = trimesh.Trimesh(v, f[keep])
+    m.export(path)
+    b = meshpress.load_body(path)
+    r = b.report
+    assert not r.watertight and r.holes == 1
+    # Hole rim radius ~ sqrt(1 - 0.8^2) = 0.6 -> area ~ pi 0.36 (faces straddle the cut: loose).
+    assert r.hole_areas_m2[0] == pytest.approx(np.pi * 0.36, rel=0.1)
+    # |sum n dA| equals the hole's vector area (divergence theorem on the closed-up surface).
+    assert r.closure * r.area_m2 == pytest.approx(r.hole_areas_m2[0], rel=0.02)
+    assert any("open" in w for w in b.warnings)
+
+
+def test_degenerate_and_duplicate_faces_dropped(tmp_path):
+    v, f = icosphere(2)
+    f2 = np.vstack([f, f[:5], [[0, 0, 1]], [[1, 2, 2]]])
+    path = tmp_path / "d.off"
+    trimesh.Trimesh(v, f2, process=False).export(path)
+    b = meshpress.load_body(path)
+    assert b.report.faces == len(f) and b.report.dropped_faces == 7
+
+
+def test_meshio_formats_and_quads(tmp_path):
+    # A unit cube of quads, written by meshio as VTU: read back, quads split, area 6.
+    pts = np.array([[0, 0, 0], [1, 0, 0], [1, 1, 0], [0, 1, 0], [0, 0, 1], [1, 0, 1], [1, 1, 1], [0, 1, 1]], float)
+    quads = np.array([[0, 3, 2, 1], [4, 5, 6, 7], [0, 1, 5, 4], [2, 3, 7, 6], [1, 2, 6, 5], [0, 4, 7, 3]])
+    for ext in ("vtu", "vtk"):
+        path = tmp_path / f"cube.{ext}"
+        meshio.write(path, meshio.Mesh(pts, [("quad", quads)]))
+        b = meshpress.load_body(path)
+        assert b.report.faces == 12 and b.area == pytest.approx(6.0)
+        assert b.report.watertight and b.volume() == pytest.approx(1.0)
+        # Frontal area of a unit cube: exactly 1 m2 (raster edges align with the cube).
+        assert b.frontal_area(0.01) == pytest.approx(1.0, rel=0.02)
+
+
+def test_scene_of_parts_becomes_one_body(tmp_path):
+    a = trimesh.creation.icosphere(2, radius=0.3)
+    c = trimesh.creation.box((0.5, 0.5, 0.5))
+    c.apply_translation((1.5, 0, 0.25))
+    scene = trimesh.Scene([a, c])
+    path = tmp_path / "parts.glb"
+    scene.export(path)
+    b = meshpress.load_body(path)
+    assert b.report.parts == 2 and b.report.components == 2
+    assert b.report.faces == len(a.faces) + len(c.faces)
+    assert b.volume() == pytest.approx(a.volume + c.volume, rel=1e-6)
+
+
+def test_frontal_area_of_sphere():
+    # Projection of a sphere of radius r: a disc of area pi r^2 (icosphere slightly smaller).
+    v, f = icosphere(5, radius=1.0)
+    b = meshpress.Body(v, f)
+    exact_poly = np.pi  # the icosphere's silhouette is inscribed: within 0.5 % at 20k faces
+    assert b.frontal_area(0.002) == pytest.approx(exact_poly, rel=5e-3)
+
+
+def test_axes_and_units_map_to_vehicle_frame(tmp_path, small_car):
+    # Same body in m with z up / forward -x, and in mm with y up / forward -z.
+    path, v, f = small_car
+    mm = np.column_stack([v[:, 1], v[:, 2], v[:, 0]]) * 1000.0 + [5.0, -40.0, 300.0]
+    p2 = tmp_path / "car_mm.vtu"  # VTU keeps doubles (STL would round to float32)
+    meshio.write(p2, meshio.Mesh(mm, [("triangle", f)]))
+    a = meshpress.load_body(path, front_axle=0.85, rear_axle=3.45)
+    b = meshpress.load_body(p2, length_unit="mm", up="+y", forward="-z", front_axle=1150.0, rear_axle=3750.0)
+    np.testing.assert_allclose(np.sort(a.centroids, axis=0), np.sort(b.centroids, axis=0), atol=1e-9)
+    assert a.axles.wheelbase == pytest.approx(2.6) and b.axles.wheelbase == pytest.approx(2.6)
+    # Origin on the ground (lowest point) midway between the axles.
+    assert b.vertices[:, 2].min() == pytest.approx(0.0, abs=1e-12)
+    assert b.axles.front_x == pytest.approx(-1.3)
+
+
+def test_implausible_size_names_the_unit(tmp_path, small_car):
+    path, v, f = small_car
+    p2 = tmp_path / "car_mm.stl"
+    trimesh.Trimesh(v * 1000.0, f, process=False).export(p2)
+    b = meshpress.load_body(p2, length_unit="m")
+    assert any("--length-unit mm" in w for w in b.warnings)
+
+
+@pytest.mark.parametrize("kw, msg", [
+    (dict(up="+w"), "not a signed axis"),
+    (dict(up="+z", forward="-z"), "must be different axes"),
+    (dict(length_unit="furlong"), "unknown length unit"),
+    (dict(front_axle=1.0), "give both"),
+    (dict(front_axle=3.0, rear_axle=1.0), "ahead of the rear axle"),
+])
+def test_bad_loader_options(small_car, kw, msg):
+    with pytest.raises(InputError, match=msg):
+        meshpress.load_body(small_car[0], **kw)
+
+
+def test_bad_mesh_files(tmp_path):
+    with pytest.raises(InputError, match="does not exist"):
+        meshpress.load_body(tmp_path / "nope.stl")
+    bad = tmp_path / "bad.stl"
+    bad.write_text("this is not a mesh\n")
+    with pytest.raises(InputError, match="bad.stl"):
+        meshpress.load_body(bad)
+
+
+def test_cached_geometry_matches_a_fresh_computation(samples_dir):
+    # The loader seeds the caches from its own arrays; they must equal what the faces give afresh.
+    b = meshpress.load_body(samples_dir / "coupe_scan.stl", length_unit="mm", up="+y", forward="-z")
+    t = b.vertices[b.faces]
+    np.testing.assert_allclose(b.triangles, t, atol=1e-12)
+    np.testing.assert_allclose(b.area_vectors, 0.5 * np.cross(t[:, 1] - t[:, 0], t[:, 2] - t[:, 0]), atol=1e-12)
+    np.testing.assert_allclose(b.centroids, t.mean(axis=1), atol=1e-12)
+    assert b.report.flipped_faces > 0
+
+
+def test_ground_height_given(small_car):
+    # The origin sits on the given ground plane, not on the lowest point.
+    path, v, f = small_car
+    b = meshpress.load_body(path, ground=-0.1)
+    assert b.vertices[:, 2].min() == pytest.approx(0.1 + v[:, 2].min(), abs=1e-12)

@@ -1,0 +1,318 @@
+"""Whole tests from a sheet: directions and wind, configurations, comparisons, outputs, sheet mistakes."""
+
+import csv
+import json
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from meshpress.air import air_density
+from meshpress.runs import WIND_BIAS_WARNING, process_sheet
+from meshpress.sheet import read_sheet
+
+from conftest import icosphere, run_cli
+
+V = 30.0  # ground speed, m/s
+W = 4.0  # steady wind along the road, m/s
+# The sheet's air (20 degC, 1013.25 hPa, 50 %) by our CIPM-2007 function, checked in test_air.py.
+RHO_Q = air_density(20.0, 101_325.0, 50.0)[0]
+
+
+def true_cp(p):
+    """Sphere in potential flow, Cp = 1 - 9/4 sin^2(theta) from the flow axis x [text], plus an invented
+    top-bottom term so there is lift to compare."""
+    c = p - [0.0, 0.0, 1.0]
+    r = np.linalg.norm(c, axis=1)
+    sin2 = 1 - (c[:, 0] / r) ** 2
+    return 1 - 2.25 * sin2 - 0.3 * c[:, 2] / r
+
+
+def fib_sphere(n):
+    i = np.arange(n) + 0.5
+    phi = np.arccos(1 - 2 * i / n)
+    th = np.pi * (1 + 5**0.5) * i
+    return np.column_stack([np.cos(th) * np.sin(phi), np.sin(th) * np.sin(phi), np.cos(phi)])
+
+
+def write_csv(path, cols: dict):
+    keys = list(cols)
+    n = len(cols[keys[0]])
+    lines = [",".join(keys)] + [",".join(f"{cols[k][i]:.10g}" for k in keys) for i in range(n)]
+    path.write_text("\n".join(lines) + "\n")
+
+
+def make_test(tmp: Path, extra_runs="", sheet_extra=""):
+    """A sphere 'car' (r = 1 m, on the ground), 40 taps, runs both ways under a steady wind."""
+    import trimesh
+
+    v, f = icosphere(3, 1.0, (0.0, 0.0, 1.0))
+    trimesh.Trimesh(v, f, process=False).export(tmp / "ball.stl")
+    pts = fib_sphere(40) * 1.0 + [0, 0, 1.0]
+    names = [f"T{i:02d}" for i in range(40)]
+    (tmp / "layout.csv").write_text("tap,x,y,z\n" + "\n".join(f"{n},{x},{y},{z}" for n, (x, y, z) in
+                                                               zip(names, pts)) + "\n")
+    # Vehicle frame: forward -x, so x is rearward as in the mesh; cp from the true field at the tap positions.
+    cp = true_cp(pts)
+    t = np.arange(0, 30, 0.1)
+    for d, sign in (("north", 1), ("south", -1)):
+        q = np.full(len(t), 0.5 * RHO_Q * (V + sign * W) ** 2)
+        cols = {"time": t, "q": q, **{n: c * q for n, c in zip(names, cp)}}
+        write_csv(tmp / f"{d}.csv", cols)
+    sheet = f"""
+title = "sphere"
+{sheet_extra}
+[vehicle]
+mesh = "ball.stl"
+front_axle = -0.6
+rear_axle = 0.6
+[vehicle.static_load]
+unit = "N"
+front_axle = 3000
+rear_axle = 3000
+[taps]
+layout = "layout.csv"
+max_distance = "30 mm"
+[air]
+temperature_C = 20
+pressure = "1013.25 hPa"
+humidity_percent = 50
+[speeds]
+from = "50 km/h"
+to = "150 km/h"
+step = "50 km/h"
+[[runs]]
+name = "onboard-n"
+configuration = "onboard"
+readings = "north.csv"
+q_column = "q"
+[[runs]]
+name = "onboard-s"
+configuration = "onboard"
+readings = "south.csv"
+q_column = "q"
+[[runs]]
+name = "ground-n"
+configuration = "ground"
+readings = "north.csv"
+speed = {V}
+ignore_columns = ["q"]
+[[runs]]
+name = "ground-s"
+configuration = "ground"
+readings = "south.csv"
+speed = "{V * 3.6} km/h"
+ignore_columns = ["q"]
+[[runs]]
+name = "cabin-n"
+configuration = "cabin"
+readings = "north.csv"
+q_column = "q"
+reference = {{ port = "cabin", cp = -0.3 }}
+{extra_runs}
+"""
+    (tmp / "sheet.toml").write_text(sheet)
+    return tmp / "sheet.toml", names, cp
+
+
+@pytest.fixture(scope="module")
+def sphere_test(tmp_path_factory):
+    tmp = tmp_path_factory.mktemp("sphere")
+    path, names, cp = make_test(tmp)
+    return path, names, cp, process_sheet(read_sheet(path))
+
+
+def test_two_directions_with_q_on_board_agree(sphere_test):
+    # With q measured on board, the wind changes q but not Cp: both directions give the same coefficients.
+    _, _, cp, res = sphere_test
+    n, s = res.runs[0], res.runs[1]
+    assert n.reading.q_Pa != pytest.approx(s.reading.q_Pa, rel=0.1)
+    assert n.reading.cp == pytest.approx(cp, abs=1e-9)
+    assert s.reading.cp == pytest.approx(cp, abs=1e-9)
+    for k in ("CL", "CD", "CLF", "CLR"):
+        assert getattr(n.load, k) == pytest.approx(getattr(s.load, k), abs=1e-9)
+    assert res.configurations["onboard"].spread["CL"]["range"] == pytest.approx(0.0, abs=1e-9)
+    assert not any("q comes from a speed" in w for w in res.configurations["onboard"].warnings)
+
+
+def test_ground_speed_pair_carries_the_wind_bias(sphere_test):
+    # Only the ground speed V known: the mean of (V+w)^2 and (V-w)^2 is V^2 + w^2 [derived], so the pair's
+    # mean Cp is the true Cp times 1 + (w/V)^2, and q (from V) is 1/2 rho w^2 short of the pair's true mean.
+    _, _, cp, res = sphere_test
+    g = res.configurations["ground"]
+    factor = 1 + (W / V) ** 2
+    assert g.cp == pytest.approx(cp * factor, rel=1e-9)
+    rho = g.rho
+    assert g.load.q_Pa == pytest.approx(0.5 * rho * V**2, rel=1e-12)
+    true_mean_q = 0.5 * rho * 0.5 * ((V + W) ** 2 + (V - W) ** 2)
+    assert true_mean_q - g.load.q_Pa == pytest.approx(0.5 * rho * W**2, rel=1e-9)
+    on = res.configurations["onboard"]
+    assert g.load.CL == pytest.approx(on.load.CL * factor, rel=1e-6)
+    assert WIND_BIAS_WARNING in g.warnings
+    # The pair's Cp ratio gives the wind back: (V + w)/(V - w) = sqrt(ratio) (exact for noise-free data).
+    assert any(f"about {W:.1f} m/s" in w for w in g.warnings)
+    assert g.spread["CL"]["range"] == pytest.approx(on.load.CL * 4 * V * W / V**2, rel=1e-6)
+
+
+def test_constant_reference_cp_cancels_on_a_closed_body(sphere_test):
+    # Cp = Cp_read + Cp_ref: a uniform shift of Cp over a closed surface gives no force (divergence theorem),
+    # so the cabin-referenced run has the same loads and every tap's Cp shifted by -0.3.
+    _, _, cp, res = sphere_test
+    on, cab = res.configurations["onboard"], res.configurations["cabin"]
+    assert cab.cp == pytest.approx(cp - 0.3, abs=1e-9)
+    assert cab.load.CL == pytest.approx(on.load.CL, abs=1e-6)
+    assert cab.load.CD == pytest.approx(on.load.CD, abs=1e-6)
+    assert res.runs[4].reading.cp_ref == -0.3
+
+
+def test_comparison_and_speeds(sphere_test):
+    _, names, _, res = sphere_test
+    d = res.comparisons[0]
+    assert (d["base"], d["other"]) == ("onboard", "ground")
+    g, on = res.configurations["ground"].load, res.configurations["onboard"].load
+    for k in ("CL", "CD", "CLF", "CLR", "front_share"):
+        assert d["delta"][k] == pytest.approx(getattr(g, k) - getattr(on, k), abs=1e-12)
+    assert [t["name"] for t in d["taps"]] == names
+    assert len(d["face_delta_cp"]) == res.body.n_faces
+    # Speeds: F = C q A with q = 1/2 rho V^2 [std]; axle load = static - axle lift.
+    t = res.configurations["onboard"].speeds
+    v = 150 / 3.6
+    q = 0.5 * res.configurations["onboard"].rho * v**2
+    assert t["speed_mps"][-1] == pytest.approx(v)
+    assert t["lift_N"][-1] == pytest.approx(on.CL * q * on.ref_area_m2)
+    assert t["front_axle_load_N"][-1] == pytest.approx(3000 - on.CLF * q * on.ref_area_m2)
+    assert t["weight_share_added"][-1] == pytest.approx(-on.CL * q * on.ref_area_m2 / 6000)
+
+
+@pytest.mark.slow
+def test_cli_run_writes_results_and_diff(tmp_path):
+    path, names, _ = make_test(tmp_path)
+    out = tmp_path / "res"
+    r = run_cli("run", path, "--out", out, "--quiet", "--no-plot")
+    assert r.returncode == 0, r.stderr
+    assert "q comes from a speed" in r.stdout
+    rows = list(csv.DictReader(open(out / "summary.csv")))
+    assert [x["run"] for x in rows] == ["onboard-n", "onboard-s", "ground-n", "ground-s", "cabin-n"]
+    for f in ("runs/onboard-n.json", "configurations/ground.json", "configurations/ground.faces.npy",
+              "comparisons/onboard__vs__ground.json", "speeds/onboard.csv", "manifest.json"):
+        assert (out / f).is_file(), f
+    run = json.loads((out / "runs/onboard-n.json").read_text())
+    assert run["run"]["reference"].startswith("free-stream static")
+    assert {"cp_std", "cp_se", "cp_se_ar1"} <= set(run["taps"][0])
+    # Results folder again: allowed (it is ours); into the sheet's folder: refused, inputs untouched.
+    assert run_cli("run", path, "--out", out, "--quiet", "--no-plot").returncode == 0
+    before = path.read_text()
+    r = run_cli("run", path, "--out", tmp_path, "--quiet")
+    assert r.returncode == 2 and "refusing" in r.stderr and path.read_text() == before
+    # A sheet mistake through the real command line: one line, exit 2, no traceback.
+    path.write_text(before.replace("speed = 30.0\n", "speed = -30.0\n"))
+    r = run_cli("run", path, "--quiet", "--out", tmp_path / "o")
+    assert r.returncode == 2 and r.stderr == "meshpress: error: sheet.toml: runs[3].speed: must be positive\n"
+    path.write_text(before)
+    # diff of two result files
+    a, b = out / "configurations/onboard.json", out / "configurations/ground.json"
+    r = run_cli("diff", a, b, "--json", tmp_path / "d.json")
+    assert r.returncode == 0, r.stderr
+    d = json.loads((tmp_path / "d.json").read_text())
+    ca, cb = json.loads(a.read_text()), json.loads(b.read_text())
+    assert d["delta"]["CL"] == pytest.approx(cb["CL"] - ca["CL"])
+    assert d["faces"]["count"] > 0 and (tmp_path / "d.faces.npy").is_file()
+
+
+MISTAKES = [
+    # (change to the sheet, text expected in the one-line error)
+    (lambda s: s.replace('readings = "north.csv"\nq_column = "q"\n[[runs]]\nname = "onboard-s"',
+                         'readings = "missing.csv"\nq_column = "q"\n[[runs]]\nname = "onboard-s"'),
+     "runs[1].readings: file 'missing.csv' does not exist"),
+    (lambda s: s.replace("[air]\n", "[air]\nhumidity = 3\n"), "air.humidity: unknown key"),
+    (lambda s: s.replace("speed = 30.0\n", "speed = -30.0\n"), "runs[3].speed: must be positive"),
+    (lambda s: s.replace('ignore_columns = ["q"]\n[[runs]]\nname = "ground-s"',
+                         '[[runs]]\nname = "ground-s"'), "column 'q' is not a tap of the layout"),
+    (lambda s: s.replace('mesh = "ball.stl"', 'mesh = "ball.obj"'), "vehicle.mesh: file 'ball.obj' does not exist"),
+    (lambda s: s.replace('q_column = "q"\nreference', 'q_column = "q"\nspeed = 3\nreference'),
+     "runs[5].q_column: give only one of"),
+]
+
+
+def test_sheet_mistakes_give_one_line_errors(tmp_path, capsys):
+    # In-process through the CLI entry point (the subprocess path is covered in test_cli_run_writes_results_and_diff).
+    from meshpress.cli import main
+
+    path, names, _ = make_test(tmp_path)
+    good = path.read_text()
+    # A readings file naming a tap that is not in the layout.
+    (tmp_path / "bad.csv").write_text((tmp_path / "north.csv").read_text().replace("T05", "T99", 1))
+    cases = MISTAKES + [(lambda s: s.replace('readings = "north.csv"\nq_column = "q"\nreference',
+                                             'readings = "bad.csv"\nq_column = "q"\nreference'),
+                         "runs[5].readings: bad.csv: column 'T99' is not a tap of the layout")]
+    for change, text in cases:
+        bad = change(good)
+        assert bad != good, text
+        path.write_text(bad)
+        code = main(["run", str(path), "--quiet", "--out", str(tmp_path / "o")])
+        err = capsys.readouterr().err
+        assert code == 2, (text, err)
+        assert err.startswith("meshpress: error: sheet.toml: "), err
+        assert text in err, (text, err)
+        assert len(err.strip().splitlines()) == 1
+    assert not (tmp_path / "o").exists()
+
+
+@pytest.mark.slow
+def test_invented_example_end_to_end():
+    # The example's logs are made from the invented field of meshpress.samples (plus an invented wing change)
+    # with noise, zero offsets, a cabin reference and an unsteady start; the known truth is that field.  The
+    # change the wing makes is what a two-configuration test measures: it must come out within 0.03.
+    import sys
+
+    root = Path(__file__).resolve().parent.parent
+    sys.path.insert(0, str(root / "scripts"))
+    from bench_runs import truth
+
+    res = process_sheet(read_sheet(root / "examples" / "sports_car_wing" / "test.toml"))
+    d = res.comparisons[0]["delta"]
+    tb, tw = truth(res.body, "baseline"), truth(res.body, "rear-wing")
+    for k in ("CL", "CLR"):
+        assert d[k] == pytest.approx(tw[k] - tb[k], abs=0.03), k
+    assert d["CL"] < -0.1
+    for r in res.runs:
+        # The unsteady start (speed below 96 % of its final value before ~9 s by construction) is left out.
+        assert r.reading.window_s[0] > 9.0
+        assert r.reading.cp_ref == pytest.approx(-0.18, abs=0.005)  # the invented cabin Cp
+    for c in res.configurations.values():
+        assert c.spread["CL"]["range"] < 0.005
+
+
+def test_excluded_tap_window_and_zero_with_speed_column(tmp_path):
+    # A broken tap left out everywhere, a given window, and a zero file logged with the speed channel.
+    path, names, cp = make_test(tmp_path, sheet_extra="")
+    text = path.read_text().replace('max_distance = "30 mm"', 'max_distance = "30 mm"\nexclude = ["T05"]')
+    t = np.arange(0, 30, 0.1)
+    v = np.where(t < 10, 10.0, 25.0)
+    q = 0.5 * RHO_Q * v**2
+    off = np.linspace(-5, 5, len(names))
+    write_csv(tmp_path / "spd.csv", {"time": t, "v": v, **{n: c * q + o for n, c, o in zip(names, cp, off)}})
+    write_csv(tmp_path / "spd0.csv", {"time": t[:20], "v": 0 * t[:20], **{n: np.full(20, o) for n, o in
+                                                                          zip(names, off)}})
+    text += ('\n[[runs]]\nname = "logged"\nconfiguration = "logged"\nreadings = "spd.csv"\nzero = "spd0.csv"\n'
+             'speed_column = "v"\nwindow = [12.0, 28.0]\n')
+    path.write_text(text)
+    res = process_sheet(read_sheet(path))
+    r = res.runs[-1]
+    keep = [i for i, n in enumerate(names) if n != "T05"]
+    assert list(res.taps.names) == [names[i] for i in keep]
+    assert r.reading.window_s == (12.0, 28.0) and r.reading.samples == 161
+    assert r.reading.cp == pytest.approx(cp[keep], abs=1e-9)
+
+
+def test_sheet_without_axles_or_static_loads(tmp_path):
+    from meshpress.commands.run import format_test
+
+    path, _, _ = make_test(tmp_path)
+    text = path.read_text().replace("front_axle = -0.6\nrear_axle = 0.6\n", "")
+    text = text.replace('[vehicle.static_load]\nunit = "N"\nfront_axle = 3000\nrear_axle = 3000\n', "")
+    path.write_text(text)
+    res = process_sheet(read_sheet(path))
+    c = res.configurations["onboard"]
+    assert c.load.CLF is None and c.speeds is not None and "front_axle_load_N" not in c.speeds
+    assert "n/a" in format_test(res)
