@@ -17,15 +17,13 @@ from __future__ import annotations
 
 import csv
 import io
-import os
-import tempfile
 from pathlib import Path
 
 import numpy as np
 
 from .distribution import surface_quantities
 from .errors import InputError
-from .results import write_atomic
+from .results import check_not_input, replace_into, write_atomic  # noqa: F401 (re-exported)
 
 VTK_SUFFIXES = (".vtp", ".vtu")
 
@@ -64,28 +62,6 @@ def body_dataset(body, face_values, taps=None, kind="p", *, q=None, p_ref=0.0):
         mesh.point_data["tap_distance_m"] = cKDTree(np.asarray(taps.points)).query(body.vertices)[0]
     # No string field data: meshio (and tools built on it) cannot read string arrays in VTU files.
     return mesh
-
-
-def replace_into(path: Path, write):
-    """Call ``write(tmp_path)`` then move the temporary file onto ``path``."""
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix="." + path.stem, suffix=path.suffix)
-    os.close(fd)
-    try:
-        write(tmp)
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
-    return path
-
-
-def check_not_input(path: Path, protect):
-    """Raise InputError when ``path`` is one of the input files ``protect``."""
-    for p in protect:
-        if p and Path(p).exists() and path.exists() and path.resolve() == Path(p).resolve():
-            raise InputError(f"refusing to write {str(path)!r}: it is one of the input files")
 
 
 def write_body(path, body, face_values, taps=None, kind="p", *, q=None, p_ref=0.0, protect=()) -> Path:

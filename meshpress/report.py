@@ -201,7 +201,7 @@ def write_report(run, out_dir, *, protect=(), progress=None, title=None, demo_no
                    p_ref=result.p_ref, protect=protect)
         write_tap_csv(files.taps, rows, protect=protect)
         if images:
-            from .export import replace_into
+            from .results import replace_into
 
             (out / "images").mkdir(exist_ok=True)
             for group in ("plots", "views"):
@@ -213,19 +213,7 @@ def write_report(run, out_dir, *, protect=(), progress=None, title=None, demo_no
                            written=[files.json.name, files.body.name, files.taps.name]
                            + (["images/"] if images else []))
         write_atomic(files.html, page, protect=protect)
-    _share_mode([files.html, files.json, files.body, files.taps, *files.images])
     return files
-
-
-def _share_mode(paths):
-    """Temporary files are created private (0600); a report is for sharing: use the umask's mode."""
-    import os
-
-    mask = os.umask(0)
-    os.umask(mask)
-    for p in paths:
-        if p is not None and Path(p).exists():
-            os.chmod(p, 0o666 & ~mask)
 
 
 # HTML ------------------------------------------------------------------------------------------

@@ -167,32 +167,42 @@ def _clean(x):
     return x
 
 
-def write_atomic(path, text: str, *, protect=()) -> Path:
-    """Write ``text`` to ``path`` completely or not at all, never over an input.
-
-    Parameters
-    ----------
-    path : str or Path
-    text : str
-    protect : iterable of paths
-        Input files that must not be overwritten.
-    """
+def check_not_input(path, protect=()) -> None:
+    """Raise InputError when ``path`` is one of the input files ``protect``."""
     path = Path(path)
     for p in protect:
         if p and Path(p).exists() and path.exists() and path.resolve() == Path(p).resolve():
             raise InputError(f"refusing to write {str(path)!r}: it is one of the input files")
-    if path.parent and not path.parent.exists():
-        path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix="." + path.name, suffix=".tmp")
+
+
+def replace_into(path, write, *, protect=()) -> Path:
+    """Call ``write(tmp_path)`` on a temporary file beside ``path``, then move it onto ``path``.
+
+    The file appears completely or not at all, never over an input (``protect``), and with the
+    mode the user's umask gives a new file (temporary files start private).
+    """
+    path = Path(path)
+    check_not_input(path, protect)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    # Keep the real suffix last: some writers (pyvista, PIL) choose the format from it.
+    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix="." + path.stem + ".tmp-", suffix=path.suffix)
+    os.close(fd)
     try:
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            fh.write(text)
+        write(tmp)
+        mask = os.umask(0)
+        os.umask(mask)
+        os.chmod(tmp, 0o666 & ~mask)
         os.replace(tmp, path)
     except BaseException:
         if os.path.exists(tmp):
             os.unlink(tmp)
         raise
     return path
+
+
+def write_atomic(path, text: str, *, protect=()) -> Path:
+    """Write ``text`` to ``path`` completely or not at all, never over an input (see replace_into)."""
+    return replace_into(path, lambda tmp: Path(tmp).write_text(text, encoding="utf-8"), protect=protect)
 
 
 def write_json(result: LoadResult | dict, path, *, protect=()) -> Path:

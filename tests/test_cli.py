@@ -136,7 +136,7 @@ def test_loads_does_not_import_plotting_libraries(sample):
 
 
 def test_demo_runs(tmp_path):
-    r = run_cli("demo", "--out", tmp_path / "demo", "--quiet")
+    r = run_cli("demo", "--out", tmp_path / "demo", "--quiet", "--no-report")  # the report: test_report.py
     assert r.returncode == 0, r.stderr
     assert "INVENTED DEMO DATA" in r.stdout
     d = json.loads((tmp_path / "demo" / "loads.json").read_text())

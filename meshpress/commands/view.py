@@ -95,7 +95,7 @@ def run(args) -> int:
 
 def _save_png(view, name, out: Path):
     """Render and write completely or not at all."""
-    from ..export import replace_into
+    from ..results import replace_into
 
     img = view.screenshot(name)
     from PIL import Image
