@@ -15,7 +15,7 @@ import sys
 from . import __version__
 from .errors import InputError
 
-COMMANDS = ["loads", "demo"]
+COMMANDS = ["loads", "compare", "demo"]
 
 
 class _Parser(argparse.ArgumentParser):

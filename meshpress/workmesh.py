@@ -137,11 +137,29 @@ class WorkMesh:
         return f, points_to_barycentric(self.body.triangles[f], p)
 
     def tap_distances(self, points, *, progress=None):
-        """Surface distances from tap points (k, 3) to every working vertex, (k, n) m (cached)."""
+        """Surface distances from tap points (k, 3) to every working vertex, (k, n) m (cached).
+
+        A tap inside a face reaches a vertex x through the best of the face's
+        corners c: ``min_c d(c, x) + |p - c|`` (heat-method ``d``), never below
+        the straight distance ``|p - x|``.  Corners are solved once each.
+        """
         key = np.ascontiguousarray(points, float).tobytes()
         if key not in self._tap_cache:
-            f, b = self.locate(points)
-            self._tap_cache = {key: self.distance.from_points(f, b, progress=progress)}
+            p = np.asarray(points, float).reshape(-1, 3)
+            f, _ = self.locate(p)
+            v = self.body.vertices
+            corners = self.body.faces[f]
+            need = np.unique(corners)
+            it = progress.track(need, len(need), "surface distances") if progress else need
+            from_c = {int(c): self.distance.from_vertex(int(c)) for c in it}
+            out = np.empty((len(p), len(v)))
+            for r in range(len(p)):
+                best = None
+                for c in corners[r]:
+                    d = from_c[int(c)] + np.linalg.norm(p[r] - v[c])
+                    best = d if best is None else np.minimum(best, d)
+                out[r] = np.maximum(best, np.linalg.norm(v - p[r], axis=1))
+            self._tap_cache = {key: out}
         return self._tap_cache[key]
 
     def vertex_to_full_faces(self, values) -> np.ndarray:

@@ -10,10 +10,11 @@ upper face far from the lower face.
 Well-posedness.  Kernels of a geodesic distance need not be positive definite
 on a curved surface (Feragen, Lauze & Hauberg, CVPR 2015), and the heat-method
 distances are approximate and not exactly symmetric.  The tap matrix is
-symmetrised, its smallest eigenvalue is checked, and a ridge (nugget) is added
-so that the smallest eigenvalue is at least ``nugget`` times the diagonal; the
-ridge is reported.  The nugget makes the fit a slight smoothing rather than an
-exact interpolation, of order ``nugget`` times the readings' spread.
+symmetrised and its smallest eigenvalue ``lam`` is checked; a ridge
+``2 max(-lam, 0) + nugget * {1, 100, 10^4}`` is added to the diagonal (so the
+smallest eigenvalue is at least ``|lam| + nugget``, the kernel diagonal being 1),
+and the ridge with the lowest leave-one-out error is kept and reported.  The
+ridge makes the fit a slight smoothing rather than an exact interpolation.
 
 Length scale.  By default it is chosen among a geometric ladder between the
 mean tap spacing and the body's size by the lowest leave-one-out error, which
@@ -55,7 +56,7 @@ class GeodesicRBFField(BoundedMixin, Field):
 
     name = "geodesic"
 
-    def __init__(self, kernel="matern32", length=None, nugget=1e-6, work_faces=TARGET_FACES,
+    def __init__(self, kernel="matern52", length=None, nugget=1e-6, work_faces=TARGET_FACES,
                  extrapolation="clamp", far_value=None):
         self.kernel = kernel
         self.length = length
@@ -76,8 +77,9 @@ class GeodesicRBFField(BoundedMixin, Field):
         wm, f, b = prepare(self, body, taps, progress)
         D = wm.tap_distances(taps.points, progress=progress)  # (k, n_work)
         Dt = wm.distance.at_points(D, f, b)
+        # Symmetrised; the diagonal (a tap's distance to itself through its face's
+        # corners, about half an edge) is kept, so taps and vertices see one kernel.
         Dt = 0.5 * (Dt + Dt.T)
-        np.fill_diagonal(Dt, 0.0)
         self.work_ = wm
         self.distances_ = D
         y = taps.values
@@ -86,7 +88,7 @@ class GeodesicRBFField(BoundedMixin, Field):
         if self.length is not None:
             lengths = [float(self.length)]
         else:
-            nn = np.sort(Dt, axis=1)[:, 1] if k > 1 else np.array([1.0])
+            nn = np.sort(Dt + np.diag(np.full(k, np.inf)), axis=1)[:, 0] if k > 1 else np.array([1.0])
             lo = max(float(np.mean(nn)), 1e-6)
             hi = max(float(np.ptp(body.vertices, axis=0).max()), 2 * lo)
             lengths = list(np.geomspace(lo, hi, 12))
@@ -94,14 +96,17 @@ class GeodesicRBFField(BoundedMixin, Field):
         for ell in lengths:
             K = matern(self.kernel, Dt, ell)
             lam = float(np.linalg.eigvalsh(K)[0])
-            ridge = max(self.nugget - lam, self.nugget) if self.nugget > 0 else max(-lam, 0.0)
-            try:
-                c, a, loo = solve_with_loo(K, P, y, ridge)
-            except np.linalg.LinAlgError:
-                continue
-            score = float(np.sqrt(np.mean(loo**2))) if k > 1 else 0.0
-            if best is None or score < best[0]:
-                best = (score, ell, c, a, loo, ridge, lam)
+            # Lift an indefinite spectrum to +|lam_min|, then try nuggets on top; the
+            # leave-one-out error (Rippa's closed form holds with a ridge) picks one.
+            base = 2.0 * max(-lam, 0.0)
+            for ridge in base + self.nugget * np.array([1.0, 1e2, 1e4]):
+                try:
+                    c, a, loo = solve_with_loo(K, P, y, ridge)
+                except np.linalg.LinAlgError:
+                    continue
+                score = float(np.sqrt(np.mean(loo**2))) if k > 1 else 0.0
+                if np.isfinite(score) and (best is None or score < best[0]):
+                    best = (score, ell, c, a, loo, ridge, lam)
         if best is None:
             raise InputError("the geodesic RBF system for these taps cannot be solved; give --nugget > 0")
         _, self.length_, self.coef_, a, self.loo_, self.ridge_, self.min_eigenvalue_ = best
