@@ -47,6 +47,9 @@ class GeodesicRBFField(BoundedMixin, Field):
         Kernel length scale, m; default chosen by the lowest leave-one-out error.
     nugget : float
         Smallest eigenvalue kept in the tap matrix, relative to its diagonal (>= 0).
+    ridge : float, optional
+        Use exactly this ridge (no choice by leave-one-out); with ``length`` given,
+        the fit is then a fixed linear map of the readings.
     work_faces : int
         Face count of the working copy for big meshes.
     extrapolation : {"clamp", "decay", "none"}
@@ -56,8 +59,9 @@ class GeodesicRBFField(BoundedMixin, Field):
 
     name = "geodesic"
 
-    def __init__(self, kernel="matern52", length=None, nugget=1e-6, work_faces=TARGET_FACES,
+    def __init__(self, kernel="matern52", length=None, nugget=1e-6, ridge=None, work_faces=TARGET_FACES,
                  extrapolation="clamp", far_value=None):
+        self.ridge = ridge
         self.kernel = kernel
         self.length = length
         self.nugget = nugget
@@ -99,7 +103,8 @@ class GeodesicRBFField(BoundedMixin, Field):
             # Lift an indefinite spectrum to +|lam_min|, then try nuggets on top; the
             # leave-one-out error (Rippa's closed form holds with a ridge) picks one.
             base = 2.0 * max(-lam, 0.0)
-            for ridge in base + self.nugget * np.array([1.0, 1e2, 1e4]):
+            ridges = [self.ridge] if self.ridge is not None else base + self.nugget * np.array([1.0, 1e2, 1e4])
+            for ridge in ridges:
                 try:
                     c, a, loo = solve_with_loo(K, P, y, ridge)
                 except np.linalg.LinAlgError:
@@ -122,8 +127,12 @@ class GeodesicRBFField(BoundedMixin, Field):
         return self._bounded(self.work_.vertex_to_full_faces(self._vertex_values()))
 
     def at_points(self, points):
+        """(k,) float at surface points (k, 3): the kernel of the distances interpolated at the
+        points (the same construction as the tap system, so refits match the closed-form LOO)."""
         self._check()
-        return self.work_.at_points(self._vertex_values(), points)
+        f, b = self.work_.locate(points)
+        d = self.work_.distance.at_points(self.distances_, f, b)
+        return self.coef_ @ matern(self.kernel, d, self.length_) + self.mean_
 
     def loo_residuals(self):
         """(n,) float: Rippa's closed-form leave-one-out residuals (same length scale and ridge)."""
