@@ -9,8 +9,8 @@ upper face far from the lower face.
 
 Well-posedness.  Kernels of a geodesic distance need not be positive definite
 on a curved surface (Feragen, Lauze & Hauberg, CVPR 2015), and the heat-method
-distances are approximate and not exactly symmetric.  The tap matrix is
-symmetrised and its smallest eigenvalue ``lam`` is checked; a ridge
+distances are approximate and not exactly symmetric.  The smallest
+eigenvalue ``lam`` of the tap matrix's symmetric part is checked; a ridge
 ``2 max(-lam, 0) + nugget * {1, 100, 10^4}`` is added to the diagonal (so the
 smallest eigenvalue is at least ``|lam| + nugget``, the kernel diagonal being 1),
 and the ridge with the lowest leave-one-out error is kept and reported.  The
@@ -80,10 +80,11 @@ class GeodesicRBFField(BoundedMixin, Field):
         check_common(self)
         wm, f, b = prepare(self, body, taps, progress)
         D = wm.tap_distances(taps.points, progress=progress)  # (k, n_work)
-        Dt = wm.distance.at_points(D, f, b)
-        # Symmetrised; the diagonal (a tap's distance to itself through its face's
-        # corners, about half an edge) is kept, so taps and vertices see one kernel.
-        Dt = 0.5 * (Dt + Dt.T)
+        # Dt[i, j]: from tap j (a source) to the point of tap i, exactly as the field is
+        # evaluated anywhere else, so the tap system and the field are one construction.
+        # The heat method is not exactly symmetric (a few % of an edge); the diagonal (a
+        # tap's distance to itself through its face's corners, about half an edge) is kept.
+        Dt = wm.distance.at_points(D, f, b).T
         self.work_ = wm
         self.distances_ = D
         y = taps.values
@@ -99,7 +100,7 @@ class GeodesicRBFField(BoundedMixin, Field):
         best = None
         for ell in lengths:
             K = matern(self.kernel, Dt, ell)
-            lam = float(np.linalg.eigvalsh(K)[0])
+            lam = float(np.linalg.eigvalsh(0.5 * (K + K.T))[0])
             # Lift an indefinite spectrum to +|lam_min|, then try nuggets on top; the
             # leave-one-out error (Rippa's closed form holds with a ridge) picks one.
             base = 2.0 * max(-lam, 0.0)
