@@ -15,6 +15,7 @@ import numpy as np
 
 from . import __version__
 from .analysis import compute_loads
+from .errors import InputError
 from .fields import METHODS, make_field
 from .progress import Progress
 from .results import CAUTION
@@ -67,7 +68,14 @@ def compare_methods(body, taps, methods=None, *, settings=None, q=None, ref_area
     for name in methods:
         t0 = time.perf_counter()
         field = make_field(name, **settings(name))
-        res = compute_loads(body, taps, field, q=q, ref_area=ref_area, p_ref=p_ref, progress=progress)
+        try:
+            res = compute_loads(body, taps, field, q=q, ref_area=ref_area, p_ref=p_ref, progress=progress)
+        except InputError as exc:  # a method that cannot run on these taps is reported, not fatal
+            rows.append({"method": name, "description": None, "loo_rms": None, "loo_max": None,
+                         "loo_worst_tap": None, "loo_unit": loo_unit, "extrapolated_share": None,
+                         "seconds": time.perf_counter() - t0, "warnings": [f"not run: {exc}"],
+                         **{k: None for k in LOAD_FIGURES}})
+            continue
         loo = np.asarray(field.loo_residuals(), float) * to_cp
         ok = np.isfinite(loo)
         worst = int(np.argmax(np.where(ok, np.abs(loo), -1))) if ok.any() else None

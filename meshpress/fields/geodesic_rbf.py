@@ -17,7 +17,8 @@ and the ridge with the lowest leave-one-out error is kept and reported.  The
 ridge makes the fit a slight smoothing rather than an exact interpolation.
 
 Length scale.  By default it is chosen among a geometric ladder between the
-mean tap spacing and the body's size by the lowest leave-one-out error, which
+larger of the mean tap spacing and the fill distance (the furthest any point of
+the surface is from a tap) and the body's size by the lowest leave-one-out error, which
 Rippa's closed form (1999) makes cheap: the criterion Rippa proposed for
 choosing an RBF shape parameter.
 
@@ -94,7 +95,11 @@ class GeodesicRBFField(BoundedMixin, Field):
             lengths = [float(self.length)]
         else:
             nn = np.sort(Dt + np.diag(np.full(k, np.inf)), axis=1)[:, 0] if k > 1 else np.array([1.0])
-            lo = max(float(np.mean(nn)), 1e-6)
+            # Not below the fill distance (the furthest any vertex is from a tap): a shorter
+            # kernel would fall back to the mean between rows of taps, where the taps'
+            # leave-one-out error cannot see it.
+            fill = float(D.min(axis=0).max())
+            lo = max(float(np.mean(nn)), fill, 1e-6)
             hi = max(float(np.ptp(body.vertices, axis=0).max()), 2 * lo)
             lengths = list(np.geomspace(lo, hi, 12))
         best = None

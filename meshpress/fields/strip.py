@@ -81,5 +81,25 @@ class CentreLineStripField(BoundedMixin, Field):
         _, fi = self.body_.centroid_tree.query(p)
         return self._values(p[:, 0], self.body_.face_normals[fi, 2] >= 0)
 
+    def loo_residuals(self):
+        """(n,) float: leave-one-out residuals; taps outside the band do not change the fit, so only
+        the band's taps are refitted (nan where none would be left)."""
+        from .base import _subset
+
+        self._check()
+        taps = self.taps_
+        out = taps.values - self.at_points(taps.points)
+        inband = np.flatnonzero(np.abs(taps.points[:, 1]) <= self.band)
+        for i in inband:
+            keep = np.ones(len(taps), bool)
+            keep[i] = False
+            try:
+                other = CentreLineStripField(**self.get_params()).fit(self.body_, _subset(taps, keep))
+            except InputError:
+                out[i] = np.nan
+                continue
+            out[i] = taps.values[i] - other.at_points(taps.points[i : i + 1])[0]
+        return out
+
     def describe(self):
         return f"centre-line strips ({self.n_used_} taps within {self.band * 1000:g} mm of y = 0)"
