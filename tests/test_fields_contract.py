@@ -204,5 +204,9 @@ def test_compare_json_carries_every_method(cli, tmp_path):
             assert k in m
     assert d["recommended"] in ALL and "spread" in d
     assert "Recommended" in r.stdout
+    one = cli("loads", tmp_path / "ball.stl", tmp_path / "taps.csv", "--ref-area", "3.1416", "--quiet",
+              "--method", "nearest", "--regions", "normal", "--json", tmp_path / "one.json")
+    assert one.returncode == 0, one.stderr
+    assert "regions" in json.loads((tmp_path / "one.json").read_text())["method"]
     bad = cli("compare", tmp_path / "ball.stl", tmp_path / "taps.csv", "--methods", "rbf,magic")
     assert bad.returncode == 2 and "magic" in bad.stderr and "Traceback" not in bad.stderr
