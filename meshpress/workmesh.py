@@ -45,8 +45,11 @@ def simplify(vertices, faces, target_faces: int):
     m = len(faces)
     if m <= target_faces:
         return np.asarray(vertices, float), np.asarray(faces, np.int64)
-    v, f = fast_simplification.simplify(np.asarray(vertices, np.float32), np.asarray(faces, np.int32),
-                                        target_reduction=1.0 - target_faces / m)
+    v, f = np.asarray(vertices, np.float32), np.asarray(faces, np.int32)
+    for _ in range(3):  # very anisotropic triangles can stop a pass short of the target
+        v, f = fast_simplification.simplify(v, f, target_count=int(target_faces))
+        if len(f) <= 1.2 * target_faces:
+            break
     v = np.asarray(v, float)
     f = np.asarray(f, np.int64)
     # Drop vertices the collapse left unused (the heat method needs none).
