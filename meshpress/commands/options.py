@@ -51,7 +51,7 @@ def add_field_options(p):
                    help="geodesic kernel length scale, m (default: chosen by leave-one-out error)")
     g.add_argument("--nugget", type=float, default=1e-6, help="geodesic kernel ridge, relative (default 1e-6)")
     g.add_argument("--work-faces", type=int, default=None, metavar="N",
-                   help="surface methods solve on a copy simplified to N faces (default 40000)")
+                   help="surface methods solve on a copy simplified to N faces (default 80000)")
     g.add_argument("--band", type=float, default=0.05, metavar="W",
                    help="strip method: half-width of the centre-line band, m (default 0.05)")
     g.add_argument("--extrapolation", default="clamp", choices=EXTRAPOLATION,
