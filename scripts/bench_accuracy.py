@@ -3,7 +3,7 @@
 Cases (meshpress.exact, meshpress.samples):
 - hemisphere on the ground in potential flow (CL = 11/16 on the base area);
 - half ellipsoid 3 : 1.2 : 1 on the ground, flow along its long axis (Lamb's closed form);
-- thin Joukowski wing (chord 0.3 m, about 9 % thick, 4 deg), extruded 0.8 m and closed by flat caps;
+- thin Joukowski wing (chord 0.3 m, 11.8 % thick, 4 deg), extruded 0.8 m and closed by flat caps;
 - the car-like body with its invented Cp field (samples.car_cp) and the practical 57-tap layout.
 
 Layouts: random (area-uniform), rows (plane sections y = const), centre line only (y = 0 section).
@@ -221,6 +221,40 @@ def run(quick=False):
     return rows
 
 
+def breakdown():
+    """Where the CL error comes from: the wing (rows, 75 taps) by chord and span zone, the car (practical
+    layout, geodesic) by x band on upward faces.  Printed; quoted in docs/accuracy.md."""
+    rng = np.random.default_rng(1)
+    allc = {c["name"]: c for c in cases()}
+    case = allc["Joukowski wing"]
+    body = case["body"]
+    taps = taps_at(body, layout(body, "rows", 75, rng, case["ys"]), case["cp"])
+    truth = case["cp"](body.centroids, body.face_normals)
+    x = body.centroids[:, 0] + 0.15
+    y = body.centroids[:, 1]
+    le, inner = x < 0.03, np.abs(y) <= 0.25
+    print("\nwing, rows, 75 taps: CL error | LE 10 % between rows | LE outboard | rest between | rest outboard")
+    for m, st in (("biharmonic", {}), ("biharmonic", {"regions": "normal"}), ("nearest", {"regions": "normal"}),
+                  ("rbf", {})):
+        v = make_field(m, **st).fit(body, taps).face_values()
+        dl = -((v - truth) * body.area_vectors[:, 2]) / case["ref"]
+        print(f"  {m + ('+regions' if st else ''):<20} {dl.sum():+.3f} | {dl[le & inner].sum():+.3f} | "
+              f"{dl[le & ~inner].sum():+.3f} | {dl[~le & inner].sum():+.3f} | {dl[~le & ~inner].sum():+.3f}")
+    case = allc["car-like"]
+    body = case["body"]
+    taps = practical_car_taps(case)
+    truth = case["cp"](body.centroids, body.face_normals)
+    ref = body.frontal_area()
+    v = make_field("geodesic").fit(body, taps).face_values()
+    dl = -((v - truth) * body.area_vectors[:, 2]) / ref
+    xn = body.centroids[:, 0] + 0.5 * sum(samples.WHEELBASE_X)
+    up = body.face_normals[:, 2] > 0.3
+    edges = np.arange(0.0, 4.21, 0.6)
+    print("car, practical layout, geodesic: CL error on upward faces per 0.6 m band from the nose:")
+    print("  " + "  ".join(f"{a:.1f}-{b:.1f} m {dl[up & (xn >= a) & (xn < b)].sum():+.3f}"
+                           for a, b in zip(edges[:-1], edges[1:])))
+
+
 def markdown(rows) -> str:
     """The table of docs/accuracy.md: one line per case, layout and tap count; CL error (%) per method,
     then the CLF error of the recommended method."""
@@ -251,6 +285,7 @@ def main():
     args = ap.parse_args()
     t0 = time.perf_counter()
     rows = run(args.quick)
+    breakdown()
     table = markdown(rows)
     print("\n" + table)
     print(f"\ntotal {time.perf_counter() - t0:.0f} s")
