@@ -12,7 +12,8 @@
 - Joukowski section: the flow past a circle through ``zeta = 1`` mapped by
   ``z = zeta + 1/zeta``, with the Kutta condition at the trailing edge;
   exact surface pressure from the map and exact lift ``rho U Gamma`` per span
-  (Kutta-Joukowski).  Extruded along y and closed by flat end caps (which carry
+  (Kutta-Joukowski), normal to the flow, which comes at the angle of attack
+  to the x axis: the z-force is ``L cos(alpha)``.  Extruded along y and closed by flat end caps (which carry
   no lift), the 2D pressure is taken as the known truth on the 3D body.
 """
 
@@ -109,23 +110,16 @@ class Joukowski:
     def cp(self, th):
         """(k,) exact Cp at circle angles th (Kutta condition; finite at the trailing edge)."""
         th = np.asarray(th, float)
-        zeta = self._circle(th)
-        s = zeta - self.z0
-        gamma = 4 * np.pi * self.a * np.sin(self.alpha + self.beta)  # U = 1
-        W = np.exp(-1j * self.alpha) - self.a**2 * np.exp(1j * self.alpha) / s**2 + 1j * gamma / (2 * np.pi * s)
-        dz = 1 - 1 / zeta**2
         with np.errstate(invalid="ignore", divide="ignore"):
-            v = np.abs(W / dz)
-        te = np.abs(dz) < 1e-6
-        if te.any():  # the limit at the cusp, from neighbouring angles
-            v[te] = np.abs(np.exp(-1j * self.alpha) * 0)  # replaced below
-            for i in np.flatnonzero(te):
-                vv = [abs(self._vel(th[i] + d)) for d in (1e-4, -1e-4)]
-                v[i] = 0.5 * sum(vv)
+            v = np.abs(self._velocity(th))
+        te = ~np.isfinite(v) | (np.abs(1 - 1 / self._circle(th) ** 2) < 1e-6)
+        for i in np.flatnonzero(te):  # the finite limit at the cusp, from the neighbouring angles
+            v[i] = 0.5 * np.abs(self._velocity(th[i] + np.array([1e-4, -1e-4]))).sum()
         return 1 - v**2
 
-    def _vel(self, t):
-        zeta = self._circle(np.array([t]))[0]
+    def _velocity(self, th):
+        """Complex surface velocity (U = 1) at circle angles th: W(zeta) / (dz/dzeta)."""
+        zeta = self._circle(th)
         s = zeta - self.z0
         gamma = 4 * np.pi * self.a * np.sin(self.alpha + self.beta)
         W = np.exp(-1j * self.alpha) - self.a**2 * np.exp(1j * self.alpha) / s**2 + 1j * gamma / (2 * np.pi * s)
@@ -133,13 +127,15 @@ class Joukowski:
 
     @property
     def cl(self):
-        """Exact section lift coefficient on the chord, Kutta-Joukowski: 2 Gamma / (U c)."""
+        """Exact section lift coefficient on the chord, Kutta-Joukowski: 2 Gamma / (U c), normal to the flow."""
         gamma = 4 * np.pi * self.a * np.sin(self.alpha + self.beta) * self.scale
         return 2 * gamma / self.chord
 
-    def lift_dir(self):
-        """Unit vector of the lift (normal to the flow along +x): +z."""
-        return np.array([0.0, 0.0, 1.0])
+    @property
+    def cz(self):
+        """Exact force coefficient along +z (normal to the chord line's x axis): ``cl cos(alpha)``, the
+        flow coming at ``alpha`` to x and the drag being zero in potential flow (d'Alembert)."""
+        return self.cl * np.cos(self.alpha)
 
     def body(self, span=0.8, n_around=240, n_span=80):
         """Extruded section closed by flat end caps: vertices (n, 3), faces (m, 3), and (n,) circle angle

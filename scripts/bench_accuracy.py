@@ -139,7 +139,7 @@ def cases(quick=False):
     V = V - [J.chord / 2, 0, 0]
     body = Body(V, F, axles=Axles(-J.chord / 2, J.chord / 2))
     cpj = lambda p, n: np.where(np.abs(n[:, 1]) > 0.9, 0.0, J.cp_at(p + [J.chord / 2, 0, 0]))
-    out.append(dict(name="Joukowski wing", body=body, ref=J.chord * span, cl=J.cl, cp=cpj,
+    out.append(dict(name="Joukowski wing", body=body, ref=J.chord * span, cl=J.cz, cp=cpj,
                     ys=(-0.25, 0.0, 0.25), wing=True))
     vv, ff = samples.car_body(200, 100)
     mid = 0.5 * sum(samples.WHEELBASE_X)
