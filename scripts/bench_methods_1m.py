@@ -7,7 +7,8 @@
    back to the full mesh (what every surface method's output goes through) against the exact field on the
    full mesh; and one method (biharmonic) run on the full 80k-face body against its 40k and 20k copies.
 
-Run: ``python scripts/bench_methods_1m.py`` (about two minutes on 2 cores).
+Run: ``python scripts/bench_methods_1m.py`` (a few minutes on 2 cores); ``--resolution`` for the mesh
+dependence check (biharmonic and nearest at three resolutions, full mesh vs copy).
 """
 
 from __future__ import annotations
@@ -144,8 +145,34 @@ def main():
               f"{x[2]:+.4f} | {100 * (x[0] - base[0]) / abs(base[0]):+.2f} |", flush=True)
 
 
+def resolution():
+    """Is a change through the working copy larger than the method's own mesh dependence?  The same 200
+    tap points on the car-like body at three resolutions, each method solved on the full mesh and on an
+    80,000-face copy (``--resolution``)."""
+    from meshpress.analysis import compute_loads
+    from meshpress.fields import make_field
+
+    bodies = {k: body_from(*make_body_arrays(*k)) for k in [(400, 100), (500, 160), (700, 230)]}
+    sys.path.insert(0, str(Path(__file__).resolve().parent))
+    from bench_accuracy import random_points, taps_at
+
+    pts = random_points(bodies[(500, 160)], 200, np.random.default_rng(3))
+    print("| body faces | method | solved on | CL | CLF | CLR | wall s |\n|---|---|---|---|---|---|---|")
+    for b in bodies.values():
+        taps = taps_at(b, pts, lambda p, nn: samples.car_cp(p + [MID, 0, 0], nn))
+        for m in ("biharmonic", "nearest"):
+            for wf in (400_000, 80_000):
+                t0 = time.perf_counter()
+                r = compute_loads(b, taps, make_field(m, work_faces=wf), ref_area=2.0)
+                on = "full" if wf >= b.n_faces else f"{wf:,} copy"
+                print(f"| {b.n_faces:,} | {m} | {on} | {r.CL:+.4f} | {r.CLF:+.4f} | {r.CLR:+.4f} | "
+                      f"{time.perf_counter() - t0:.1f} |", flush=True)
+
+
 if __name__ == "__main__":
     if len(sys.argv) > 2 and sys.argv[1] == "--child":
         child(sys.argv[2])
+    elif len(sys.argv) > 1 and sys.argv[1] == "--resolution":
+        resolution()
     else:
         main()
