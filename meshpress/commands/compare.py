@@ -36,6 +36,7 @@ def run(args) -> int:
     from .loads import _check_output
 
     progress = Progress(enabled=False if args.quiet else None)
+    # --method (shared with `loads`) is not used here: --methods picks the methods.
     methods = [m.strip() for m in args.methods.split(",") if m.strip()] if args.methods else list(METHODS)
     for m in methods:
         if m not in METHODS:
