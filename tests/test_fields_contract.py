@@ -210,3 +210,37 @@ def test_compare_json_carries_every_method(cli, tmp_path):
     assert "regions" in json.loads((tmp_path / "one.json").read_text())["method"]
     bad = cli("compare", tmp_path / "ball.stl", tmp_path / "taps.csv", "--methods", "rbf,magic")
     assert bad.returncode == 2 and "magic" in bad.stderr and "Traceback" not in bad.stderr
+
+
+def test_region_specs(tmp_path):
+    # A box has six flat sides meeting at 90 degree edges: six sharp-edge patches (geometry).
+    from meshpress.regions import face_regions
+
+    body = plates()
+    names, idx = face_regions(body, "edges")
+    assert len(names) == 6
+    names, idx = face_regions(body, "normal;x=0")
+    assert len(names) == 4
+    c = body.centroids
+    assert set(idx[(c[:, 0] > 0.01) & (c[:, 2] > 0.009)]) == {names.index("upper / x>=0")}
+    labels = np.where(c[:, 1] > 0, "right", "left")
+    (tmp_path / "lab.txt").write_text("# one label per face\n" + "\n".join(labels) + "\n")
+    names, idx = face_regions(body, str(tmp_path / "lab.txt"))
+    assert names == ["left", "right"] and np.array_equal(np.array(names)[idx], labels)
+    (tmp_path / "short.txt").write_text("a\nb\n")
+    with pytest.raises(InputError, match="2 labels for"):
+        face_regions(body, str(tmp_path / "short.txt"))
+    names, _ = face_regions(body, "box=-0.1,0.1,-0.1,0.1,-1,1")
+    assert names == ["in box", "out of box"]
+
+
+def test_region_without_taps_takes_empty_value():
+    # Taps only on the top face: the lower region has none and takes --empty-value (here Cp 0.5),
+    # so lift per q = (0.5 - (-1)) x 1 m2 (F = -p n A on flat faces).
+    body = plates()
+    g = np.linspace(-0.4, 0.4, 4)
+    taps = make_taps(body, [(x, y, 0.01) for x in g for y in g], np.full(16, -1.0))
+    f = make_field("biharmonic", regions="normal", empty_value=0.5)
+    res = compute_loads(body, taps, f, ref_area=1.0)
+    assert res.CL == pytest.approx(1.5, rel=1e-9)
+    assert any("without taps" in w for w in res.warnings)
