@@ -147,7 +147,7 @@ class WorkMesh:
         the straight distance ``|p - x|``.  ``corners`` = 3 solves every corner
         (exact to the heat method's accuracy near the tap), 1 only the corner
         with the largest barycentric weight (error at most one edge, near the tap);
-        default 3 on copies up to 20,000 vertices, else 1.
+        default 3 on copies up to 25,000 vertices, else 1.
         """
         key = np.ascontiguousarray(points, float).tobytes()
         if key not in self._tap_cache:
@@ -155,7 +155,7 @@ class WorkMesh:
             f, b = self.locate(p)
             v = self.body.vertices
             if corners is None:
-                corners = 3 if len(v) <= 20_000 else 1
+                corners = 3 if len(v) <= 25_000 else 1
             cs = self.body.faces[f] if corners == 3 else self.body.faces[f, np.argmax(b, axis=1)][:, None]
             need = np.unique(cs)
             it = progress.track(need, len(need), "surface distances") if progress else need
