@@ -38,12 +38,32 @@ def add_flow_options(p):
 
 def add_field_options(p):
     from ..fields import METHODS
+    from ..fields.bounds import EXTRAPOLATION
+    from ..fields.kernels import GEODESIC_KERNELS
     from ..fields.rbf import KERNELS
 
-    g = p.add_argument_group("pressure field")
+    g = p.add_argument_group("pressure field (docs/methods.md)")
     g.add_argument("--method", default="rbf", help="field method: " + ", ".join(METHODS) + " (default rbf)")
-    g.add_argument("--kernel", default="thin_plate_spline", help="RBF kernel: " + ", ".join(KERNELS))
+    g.add_argument("--kernel", default=None, help="RBF kernel: " + ", ".join(KERNELS)
+                   + " (default thin_plate_spline); geodesic: " + ", ".join(GEODESIC_KERNELS) + " (default matern52)")
     g.add_argument("--smoothing", type=float, default=0.0, help="RBF smoothing (default 0: exact at taps)")
+    g.add_argument("--length", type=float, metavar="L",
+                   help="geodesic kernel length scale, m (default: chosen by leave-one-out error)")
+    g.add_argument("--nugget", type=float, default=1e-6, help="geodesic kernel ridge, relative (default 1e-6)")
+    g.add_argument("--work-faces", type=int, default=None, metavar="N",
+                   help="surface methods solve on a copy simplified to N faces (default 80000)")
+    g.add_argument("--band", type=float, default=0.05, metavar="W",
+                   help="strip method: half-width of the centre-line band, m (default 0.05)")
+    g.add_argument("--extrapolation", default="clamp", choices=EXTRAPOLATION,
+                   help="beyond the outermost taps: clamp to the readings' range (default), decay to "
+                        "--far-value, or none")
+    g.add_argument("--far-value", type=float, default=None, metavar="V",
+                   help="value far from every tap for --extrapolation decay (taps' unit, e.g. 0)")
+    g.add_argument("--regions", default=None, metavar="SPEC",
+                   help="fit separately on regions: 'normal', 'edges[:ANGLE]', 'x=V', 'z=V', "
+                        "'box=X0,X1,Y0,Y1,Z0,Z1' or a face label file; join parts with ';'")
+    g.add_argument("--empty-value", type=float, default=None, metavar="V",
+                   help="value of a region without taps (default: the nearest tap's reading)")
     g.add_argument("--max-tap-distance", default=None, metavar="D",
                    help="largest tap-to-surface distance, mesh unit or with a unit like '25 mm' (default 25 mm)")
 
@@ -64,7 +84,21 @@ def max_distance_m(text, length_unit) -> float:
     return value * length_factor(unit)
 
 
-def method_settings(args) -> dict:
-    if args.method == "rbf":
-        return {"kernel": args.kernel, "smoothing": args.smoothing}
-    return {}
+def method_settings(args, method=None) -> dict:
+    """Constructor settings of ``method`` (default ``args.method``) from the parsed options."""
+    method = method or args.method
+    common = {"extrapolation": args.extrapolation, "far_value": args.far_value}
+    work = {} if args.work_faces is None else {"work_faces": args.work_faces}
+    if method == "rbf":
+        s = {"kernel": args.kernel or "thin_plate_spline", "smoothing": args.smoothing, **common}
+    elif method == "geodesic":
+        s = {"kernel": args.kernel or "matern52", "length": args.length, "nugget": args.nugget, **work, **common}
+    elif method in ("biharmonic", "harmonic", "nearest"):
+        s = {**work, **common}
+    elif method == "strip":
+        s = {"band": args.band, **common}
+    else:
+        s = {}
+    if args.regions is not None:
+        s.update(regions=args.regions, empty_value=args.empty_value)
+    return s

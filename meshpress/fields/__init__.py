@@ -1,32 +1,54 @@
 """Pressure-field methods, registered by name.
 
 Every method follows :class:`~meshpress.fields.base.Field`: ``fit(body, taps)``
-then ``face_values()``.
+then ``face_values()``.  docs/methods.md describes each one and its source.
 """
 
 from __future__ import annotations
 
 from ..errors import InputError
 from .base import Field, NotFittedError
+from .biharmonic import BiharmonicField, HarmonicField
+from .geodesic_rbf import GeodesicRBFField
+from .nearest import NearestTapField
 from .rbf import RBFField
+from .regional import RegionalField
+from .strip import CentreLineStripField
 
-#: name -> factory taking keyword settings.  Later methods register here.
-METHODS: dict[str, type] = {"rbf": RBFField}
+#: name -> factory taking keyword settings.
+METHODS: dict[str, type] = {
+    "rbf": RBFField,
+    "geodesic": GeodesicRBFField,
+    "biharmonic": BiharmonicField,
+    "harmonic": HarmonicField,
+    "nearest": NearestTapField,
+    "strip": CentreLineStripField,
+}
 
 
-def make_field(method: str = "rbf", **settings) -> Field:
+def make_field(method: str = "rbf", *, regions=None, empty_value=None, **settings) -> Field:
     """Create an unfitted field method by name.
 
     Parameters
     ----------
     method : str
         One of :data:`METHODS`.
+    regions : str or (m,) array, optional
+        Fit the method on each region separately (:mod:`meshpress.regions`).
+    empty_value : float, optional
+        Value of a region without taps (with ``regions``).
     **settings
         Passed to the method's constructor (e.g. ``kernel=``, ``smoothing=``).
     """
     if method not in METHODS:
         raise InputError(f"--method {method!r} is not one of: {', '.join(METHODS)}")
-    return METHODS[method](**settings)
+    if regions is not None:
+        return RegionalField(method, regions, empty_value, settings)
+    try:
+        return METHODS[method](**settings)
+    except TypeError as exc:
+        raise InputError(f"--method {method}: {exc}") from None
 
 
-__all__ = ["Field", "NotFittedError", "RBFField", "METHODS", "make_field"]
+__all__ = ["Field", "NotFittedError", "METHODS", "make_field", "RBFField", "GeodesicRBFField",
+           "BiharmonicField", "HarmonicField", "NearestTapField", "CentreLineStripField", "RegionalField"]

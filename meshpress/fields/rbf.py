@@ -13,6 +13,15 @@ million faces.  By default the field is evaluated at the vertices and each face
 takes the mean of its three corners, which is the exact face mean of the
 piecewise-linear interpolant of the vertex values and needs about half as many
 kernel evaluations as face centres on a closed mesh.
+
+Beyond the outermost taps the values are bounded (:mod:`meshpress.fields.bounds`;
+clamped to the range of the readings by default).  Leave-one-out residuals use
+Rippa's closed form (Adv. Comput. Math. 11 (1999) 193-210) on the augmented
+saddle-point system, ``e_i = c_i / (A^-1)_ii`` (:mod:`meshpress.fields.kernels`).
+
+Straight-line distance ignores the surface: a tap on the upper face of a wing
+is "near" the lower face 20 mm below it.  Use a surface-aware method (geodesic,
+biharmonic, nearest) or regions on thin parts (docs/methods.md).
 """
 
 from __future__ import annotations
@@ -24,6 +33,8 @@ import numpy as np
 from ..errors import InputError
 from ..tolerances import TOL
 from .base import Field
+from .bounds import BoundedMixin, check_extrapolation
+from .kernels import monomials, scipy_kernel, solve_with_loo
 
 KERNELS = ("thin_plate_spline", "cubic", "quintic", "linear", "multiquadric",
            "inverse_multiquadric", "inverse_quadratic", "gaussian")
@@ -42,7 +53,7 @@ def affine_rank(points: np.ndarray) -> int:
     return int(np.sum(s > TOL.coplanar_rel * s[0]))
 
 
-class RBFField(Field):
+class RBFField(BoundedMixin, Field):
     """Straight-line (3D Euclidean) RBF interpolation.
 
     Parameters
@@ -60,18 +71,24 @@ class RBFField(Field):
         Where the field is evaluated to get face values.
     chunk : int
         Evaluation points per chunk.
+    extrapolation : {"clamp", "decay", "none"}
+        Bound on values beyond the taps (:func:`~meshpress.fields.bounds.bound_values`).
+    far_value : float, optional
+        Value far from every tap, for ``extrapolation="decay"``.
     """
 
     name = "rbf"
 
     def __init__(self, kernel="thin_plate_spline", smoothing=0.0, epsilon=None, degree=None,
-                 evaluate_at="vertices", chunk=50_000):
+                 evaluate_at="vertices", chunk=50_000, extrapolation="clamp", far_value=None):
         self.kernel = kernel
         self.smoothing = smoothing
         self.epsilon = epsilon
         self.degree = degree
         self.evaluate_at = evaluate_at
         self.chunk = chunk
+        self.extrapolation = extrapolation
+        self.far_value = far_value
 
     def _fit(self, body, taps, progress):
         from scipy.interpolate import RBFInterpolator
@@ -82,6 +99,7 @@ class RBFField(Field):
             raise InputError(f"smoothing must be >= 0, got {self.smoothing}")
         if self.evaluate_at not in ("vertices", "centroids"):
             raise InputError(f"evaluate_at must be 'vertices' or 'centroids', got {self.evaluate_at!r}")
+        check_extrapolation(self.extrapolation, self.far_value)
         y = taps.points
         if len(y) < 1:
             raise InputError("no taps to interpolate")
@@ -137,9 +155,26 @@ class RBFField(Field):
     def _face_values(self, progress):
         body = self.body_
         if self.evaluate_at == "centroids":
-            return self._evaluate(body.centroids, progress)
+            return self._bounded(self._evaluate(body.centroids, progress))
         v = self._evaluate(body.vertices, progress)
-        return v[body.faces].mean(axis=1)
+        return self._bounded(v[body.faces].mean(axis=1))
+
+    def loo_residuals(self):
+        """(n,) float: Rippa's closed-form leave-one-out residuals (value minus prediction).
+
+        Built on the same system as scipy's solver (kernel of ``epsilon * r``,
+        polynomial of the degree used, smoothing on the diagonal).
+        """
+        self._check()
+        y = self.taps_.points
+        eps = 1.0 if self.epsilon_ is None else self.epsilon_
+        r = np.linalg.norm(y[:, None, :] - y[None, :, :], axis=2) * eps
+        K = scipy_kernel(self.kernel, r)
+        c = y - y.mean(axis=0)
+        scale = float(np.abs(c).max()) or 1.0
+        P = monomials(c / scale, self.degree_)
+        _, _, loo = solve_with_loo(K, P, self.taps_.values, self.smoothing)
+        return loo
 
     def describe(self):
         s = f"rbf ({self.kernel}, degree {self.degree_}, smoothing {self.smoothing:g})"

@@ -1,0 +1,162 @@
+"""Several field methods on the same taps: cross-validation error, loads and their spread.
+
+The recommendation is the method with the lowest leave-one-out RMS error at the
+taps (a reading predicted from all the others; closed forms where they exist:
+Rippa 1999 for the kernel methods).  Low cross-validation error at the taps is
+evidence, not proof, of accuracy between them: the spread of the loads between
+methods is the honest measure of how much the answer depends on the choice.
+"""
+
+from __future__ import annotations
+
+import time
+
+import numpy as np
+
+from . import __version__
+from .analysis import compute_loads
+from .errors import InputError
+from .fields import METHODS, make_field
+from .progress import Progress
+from .results import CAUTION
+
+#: Figures compared between methods (LoadResult properties).
+LOAD_FIGURES = ("CL", "CD", "CPM", "CLF", "CLR", "front_share", "lift_N", "drag_N", "pitch_moment_Nm",
+                "front_lift_N", "rear_lift_N")
+
+
+def _num(v):
+    return None if v is None or not np.isfinite(v) else float(v)
+
+
+def compare_methods(body, taps, methods=None, *, settings=None, q=None, ref_area=None, p_ref=0.0,
+                    progress=None) -> dict:
+    """Run ``methods`` on the same body and taps.
+
+    Parameters
+    ----------
+    body : Body
+    taps : ProjectedTaps
+    methods : list of str, optional
+        Method names (default every registered method).
+    settings : callable, optional
+        ``settings(name) -> dict`` of constructor settings per method.
+    q, ref_area, p_ref
+        As for :func:`~meshpress.analysis.compute_loads`.
+
+    Returns
+    -------
+    dict
+        ``methods``: one entry per method (``loo_rms``, ``loo_max`` in Cp when
+        ``q`` is known or the taps are Cp, else Pa; the load figures;
+        ``extrapolated_share``; ``seconds``; ``warnings``), ``spread`` (max - min
+        of each figure over the methods), ``recommended`` and ``summary``.
+    """
+    progress = progress or Progress(enabled=False)
+    methods = list(methods or METHODS)
+    settings = settings or (lambda name: {})
+    if ref_area is None:
+        ref_area = body.frontal_area()
+    to_cp = 1.0
+    loo_unit = "Cp"
+    if taps.kind == "p":
+        if q:
+            to_cp = 1.0 / q
+        else:
+            loo_unit = "Pa"
+    rows = []
+    for name in methods:
+        t0 = time.perf_counter()
+        field = make_field(name, **settings(name))
+        try:
+            res = compute_loads(body, taps, field, q=q, ref_area=ref_area, p_ref=p_ref, progress=progress)
+        except InputError as exc:  # a method that cannot run on these taps is reported, not fatal
+            rows.append({"method": name, "description": None, "loo_rms": None, "loo_max": None,
+                         "loo_worst_tap": None, "loo_unit": loo_unit, "extrapolated_share": None,
+                         "seconds": time.perf_counter() - t0, "warnings": [f"not run: {exc}"],
+                         **{k: None for k in LOAD_FIGURES}})
+            continue
+        loo = np.asarray(field.loo_residuals(), float) * to_cp
+        ok = np.isfinite(loo)
+        worst = int(np.argmax(np.where(ok, np.abs(loo), -1))) if ok.any() else None
+        row = {
+            "method": name,
+            "description": res.method,
+            "loo_rms": _num(np.sqrt(np.mean(loo[ok] ** 2))) if ok.any() else None,
+            "loo_max": _num(abs(loo[worst])) if worst is not None else None,
+            "loo_worst_tap": taps.names[worst] if worst is not None else None,
+            "loo_unit": loo_unit,
+            "extrapolated_share": _num(getattr(field, "extrapolated_share_", None)),
+            "seconds": time.perf_counter() - t0,
+            "warnings": list(field.warnings_),
+        }
+        for k in LOAD_FIGURES:
+            row[k] = _num(getattr(res, k))
+        rows.append(row)
+    spread = {}
+    for k in LOAD_FIGURES + ("loo_rms",):
+        vals = [r[k] for r in rows if r[k] is not None]
+        spread[k] = (max(vals) - min(vals)) if len(vals) > 1 else (0.0 if vals else None)
+    scored = [r for r in rows if r["loo_rms"] is not None]
+    best = min(scored, key=lambda r: r["loo_rms"])["method"] if scored else None
+    return {
+        "methods": rows,
+        "spread": spread,
+        "recommended": best,
+        "summary": summary(rows, spread, best),
+        "q_Pa": q,
+        "ref_area_m2": float(ref_area),
+        "value_kind": taps.kind,
+        "n_taps": len(taps),
+        "caution": CAUTION,
+        "inputs": {"mesh": body.source, "meshpress": __version__},
+    }
+
+
+def summary(rows, spread, best) -> str:
+    """Two sentences: the recommendation and how far the loads move between methods."""
+    if best is None:
+        return "No method gave a leave-one-out error; no recommendation."
+    b = next(r for r in rows if r["method"] == best)
+    s = (f"Recommended: {best} (lowest leave-one-out error at the taps, RMS {b['loo_rms']:.3g} "
+         f"{b['loo_unit']}).")
+    key = [k for k in ("CL", "CLF", "CLR") if spread.get(k) is not None]
+    if key:
+        parts = []
+        for k in key:
+            vals = [(r[k], r["method"]) for r in rows if r[k] is not None]
+            lo, hi = min(vals), max(vals)
+            parts.append(f"{k} by {spread[k]:.3f} ({lo[0]:+.3f} {lo[1]} to {hi[0]:+.3f} {hi[1]})")
+        s += " Between methods " + ", ".join(parts) + "."
+    elif spread.get("lift_N") is not None:
+        s += f" Between methods the lift moves by {spread['lift_N']:.1f} N."
+    return s
+
+
+def format_comparison(c: dict) -> str:
+    """Plain-text table of a comparison."""
+    coef = c["methods"] and c["methods"][0]["CL"] is not None
+    unit = c["methods"][0]["loo_unit"] if c["methods"] else "Cp"
+    figs = ("CL", "CD", "CPM", "CLF", "CLR") if coef else ("lift_N", "drag_N", "pitch_moment_Nm",
+                                                          "front_lift_N", "rear_lift_N")
+    head = f"  {'method':<12}{'LOO rms':>9}{'LOO max':>9}" + "".join(f"{f:>10}" for f in figs) + f"{'extrap %':>10}{'s':>7}"
+    lines = ["meshpress compare", "", f"  leave-one-out error at the taps in {unit}; "
+             f"{c['n_taps']} taps, reference area {c['ref_area_m2']:.3f} m2", "", head]
+
+    def f(v, spec):
+        return "n/a" if v is None else format(v, spec)
+
+    for r in c["methods"]:
+        lines.append(f"  {r['method']:<12}{f(r['loo_rms'], '.3f'):>9}{f(r['loo_max'], '.3f'):>9}"
+                     + "".join(f"{f(r[k], '+.3f' if coef else '+.1f'):>10}" for k in figs)
+                     + f"{f(None if r['extrapolated_share'] is None else 100 * r['extrapolated_share'], '.1f'):>10}"
+                     + f"{r['seconds']:>7.1f}")
+    sp = c["spread"]
+    lines.append(f"  {'spread':<12}{f(sp['loo_rms'], '.3f'):>9}{'':>9}"
+                 + "".join(f"{f(sp[k], '.3f' if coef else '.1f'):>10}" for k in figs))
+    lines += ["", "  " + c["summary"]]
+    for r in c["methods"]:
+        for w in r["warnings"]:
+            lines.append(f"  {r['method']}: {w}")
+    lines += ["", f"  Caution: {CAUTION}"]
+    return "\n".join(lines)
