@@ -30,7 +30,7 @@ def _num(v):
 
 
 def compare_methods(body, taps, methods=None, *, settings=None, q=None, ref_area=None, p_ref=0.0,
-                    progress=None) -> dict:
+                    progress=None, face_values=None) -> dict:
     """Run ``methods`` on the same body and taps.
 
     Parameters
@@ -43,6 +43,8 @@ def compare_methods(body, taps, methods=None, *, settings=None, q=None, ref_area
         ``settings(name) -> dict`` of constructor settings per method.
     q, ref_area, p_ref
         As for :func:`~meshpress.analysis.compute_loads`.
+    face_values : dict, optional
+        Filled with method name -> (m,) face values, for pictures.
 
     Returns
     -------
@@ -76,6 +78,8 @@ def compare_methods(body, taps, methods=None, *, settings=None, q=None, ref_area
                          "seconds": time.perf_counter() - t0, "warnings": [f"not run: {exc}"],
                          **{k: None for k in LOAD_FIGURES}})
             continue
+        if face_values is not None:
+            face_values[name] = res.face_values if res.face_values is not None else field.face_values()
         loo = np.asarray(field.loo_residuals(), float) * to_cp
         ok = np.isfinite(loo)
         worst = int(np.argmax(np.where(ok, np.abs(loo), -1))) if ok.any() else None

@@ -186,3 +186,22 @@ def png_bytes(fig) -> bytes:
     fig.savefig(buf, format="png", facecolor=fig.get_facecolor())
     plt.close(fig)
     return buf.getvalue()
+
+
+def image_grid(images: dict, titles: dict | None = None, *, columns=3, suptitle=None, width_in=13.0):
+    """Tile images (name -> (h, w, 3) uint8) in a grid with a title above each; returns the figure."""
+    plt = _plt()
+    names = list(images)
+    cols = min(columns, len(names))
+    rows = -(-len(names) // cols)
+    h, w = next(iter(images.values())).shape[:2]
+    fig, axes = plt.subplots(rows, cols, figsize=(width_in, width_in / cols * h / w * rows + 0.6), squeeze=False)
+    for ax in axes.ravel():
+        ax.axis("off")
+    for ax, n in zip(axes.ravel(), names):
+        ax.imshow(images[n])
+        ax.set_title(_plain((titles or {}).get(n, n)), fontsize=10, loc="left", family="monospace")
+    if suptitle:
+        fig.suptitle(_plain(suptitle), fontsize=11, family="monospace", x=0.01, ha="left")
+    fig.tight_layout()
+    return fig

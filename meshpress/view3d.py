@@ -369,3 +369,41 @@ def render_views(body, face_values, taps=None, *, views=tuple(VIEWS), progress=N
     out["_seconds"] = time.perf_counter() - t0
     out["_decimated"] = view.decimated
     return out
+
+
+def render_fields(body, fields: dict, taps=None, *, view="three-quarter", size=(900, 540), progress=None, **kw) -> dict:
+    """Render several fields of one body from one view, with one shared colour scale.
+
+    Parameters
+    ----------
+    body : Body
+    fields : dict
+        name -> (m,) face values (same ``kind`` for all).
+    taps : ProjectedTaps, optional
+    view : str
+        One of :data:`VIEWS`.
+    size : (int, int)
+        Each image's size, pixels.
+
+    Returns
+    -------
+    dict
+        name -> (h, w, 3) uint8 image.
+    """
+    from dataclasses import replace
+
+    kw.setdefault("off_screen", True)
+    views = {n: BodyView(body, v, taps, size=size, **kw) for n, v in fields.items()}
+    # One scale for all, so equal colours mean equal values across the methods.
+    limit = max(v.field.limit for v in views.values())
+    out = {}
+    names = list(views)
+    it = progress.track(names, len(names), "rendering fields") if progress else names
+    for n in it:
+        v = views[n]
+        v.field = replace(v.field, limit=limit)
+        try:
+            out[n] = v.screenshot(view)
+        finally:
+            v.close()
+    return out

@@ -182,6 +182,7 @@ def test_working_copy_keeps_loads(sphere):
 
 
 @pytest.mark.slow
+@pytest.mark.slow
 def test_compare_json_carries_every_method(cli, tmp_path):
     import trimesh
 
@@ -194,9 +195,16 @@ def test_compare_json_carries_every_method(cli, tmp_path):
                                 in enumerate(zip(pts, sphere_cp(pts)))]
     (tmp_path / "taps.csv").write_text("\n".join(rows) + "\n")
     out = tmp_path / "cmp.json"
+    pic = tmp_path / "cmp.png"
     r = cli("compare", tmp_path / "ball.stl", tmp_path / "taps.csv", "--ref-area", "3.1416", "--json", out,
-            "--quiet", "--front-axle", "-0.5", "--rear-axle", "0.5")
+            "--quiet", "--front-axle", "-0.5", "--rear-axle", "0.5", "--picture", pic)
     assert r.returncode == 0, r.stderr
+    # The side-by-side picture: a PNG (signature from the PNG spec), wider than tall, not one flat colour.
+    from PIL import Image
+
+    assert pic.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    img = np.asarray(Image.open(pic).convert("RGB"))
+    assert img.shape[1] > img.shape[0] > 200 and img.reshape(-1, 3).std(axis=0).max() > 10
     d = json.loads(out.read_text())
     assert [m["method"] for m in d["methods"]] == ALL
     for m in d["methods"]:

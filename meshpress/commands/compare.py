@@ -18,6 +18,9 @@ def add_parser(sub):
     add_flow_options(p)
     add_field_options(p)
     p.add_argument("--json", metavar="OUT", help="write the comparison as JSON to OUT")
+    p.add_argument("--picture", metavar="PNG", help="write the methods' fields side by side to PNG")
+    p.add_argument("--camera", default="three-quarter",
+                   help="view for --picture: side, top, bottom, front, rear, three-quarter (default)")
     p.add_argument("--quiet", action="store_true", help="no progress display")
     p.set_defaults(run=run)
     return p
@@ -42,19 +45,54 @@ def run(args) -> int:
         if m not in METHODS:
             raise InputError(f"--methods: {m!r} is not one of: {', '.join(METHODS)}")
     q = resolve_q(args.q, speed_mps(args.speed), args.air_density)
-    if args.json:
-        _check_output(args.json, (args.mesh, args.taps))
+    for out in (args.json, args.picture):
+        if out:
+            _check_output(out, (args.mesh, args.taps))
+    if args.picture:
+        from ..view3d import VIEWS
+
+        if not args.picture.lower().endswith(".png"):
+            raise InputError(f"--picture {args.picture!r}: the picture must be a .png file")
+        if args.camera not in VIEWS:
+            raise InputError(f"--camera {args.camera!r} is not one of: {', '.join(VIEWS)}")
     body = load_body(args.mesh, length_unit=args.length_unit, up=args.up, forward=args.forward,
                      front_axle=args.front_axle, rear_axle=args.rear_axle, ground=args.ground, progress=progress)
     table = read_taps(args.taps, pressure_unit=args.pressure_unit)
     with progress.step("projecting taps"):
         taps = project_taps(body, table, max_distance=max_distance_m(args.max_tap_distance, args.length_unit))
+    fields = {} if args.picture else None
     c = compare_methods(body, taps, methods, settings=lambda name: method_settings(args, name), q=q,
-                        ref_area=args.ref_area, p_ref=args.p_ref, progress=progress)
+                        ref_area=args.ref_area, p_ref=args.p_ref, progress=progress, face_values=fields)
     c["inputs"]["taps"] = str(args.taps)
     print(format_comparison(c))
-    print("\n  (a side-by-side picture of the fields will come with the view command)")
+    if args.picture:
+        _picture(args.picture, body, taps, fields, c, q, args, progress)
+        print(f"\n  wrote {args.picture}")
     if args.json:
         write_json(c, args.json, protect=(args.mesh, args.taps))
         print(f"\n  wrote {args.json}")
     return 0
+
+
+def _picture(path, body, taps, fields, c, q, args, progress):
+    """The methods' fields from one view, one colour scale, CL and LOO error in each title."""
+    from ..plots import image_grid, png_bytes
+    from ..results import replace_into
+    from ..view3d import render_fields
+
+    fields = {k: v for k, v in fields.items() if v is not None}
+    images = render_fields(body, fields, taps, view=args.camera, kind=taps.kind, q=q, p_ref=args.p_ref,
+                           progress=progress)
+    rows = {r["method"]: r for r in c["methods"]}
+
+    def title(n):
+        r = rows[n]
+        cl = "n/a" if r["CL"] is None else f"{r['CL']:+.3f}"
+        loo = "n/a" if r["loo_rms"] is None else f"{r['loo_rms']:.3f}"
+        star = "  (recommended)" if n == c["recommended"] else ""
+        return f"{n}: CL {cl}, LOO rms {loo} {r['loo_unit']}{star}"
+
+    fig = image_grid(images, {n: title(n) for n in images},
+                     suptitle="meshpress compare: the same taps, six ways of filling the surface (one colour scale)")
+    data = png_bytes(fig)
+    replace_into(path, lambda tmp: open(tmp, "wb").write(data), protect=(args.mesh, args.taps))
