@@ -98,8 +98,8 @@ class SurfaceGP:
         noise_var : (n,) float, optional
             Stated measurement variance of each tap, value unit^2 (default 0).
         length_bounds : (float, float), optional
-            Bounds of the length scale, m; default (0.5 * smallest node
-            spacing, 3 * largest distance).
+            Bounds of the length scale, m; default (median distance from a tap
+            to its nearest neighbour, 3 * largest distance).
         """
         import scipy.sparse as sp
 
@@ -118,8 +118,9 @@ class SurfaceGP:
                                else (10.0 * (abs(float(np.mean(y))) + scale)) ** 2)
         dmax = float(self.distance.max())
         if length_bounds is None:
-            off = self.distance[self.distance > 0]
-            length_bounds = (0.5 * float(off.min()) if off.size else 1e-3, 3.0 * dmax)
+            # Below the taps' own spacing the data say nothing about the correlation, and a short length
+            # scale makes every integral look certain: the lower bound is the median nearest-tap distance.
+            length_bounds = (self._tap_spacing(T), 3.0 * dmax)
         fixed = {"l": self.length_scale, "s2": self.variance, "nug": self.nugget}
         bounds = {"l": np.log(length_bounds), "s2": np.log([1e-4 * scale**2, 1e2 * scale**2]),
                   "nug": np.log([1e-8 * scale**2, 1.0 * scale**2])}
@@ -145,14 +146,15 @@ class SurfaceGP:
             from scipy.optimize import minimize
 
             best = None
-            starts_l = [f * dmax for f in (0.05, 0.15, 0.4)] if "l" in free else [None]
+            starts_l = [f * dmax for f in (0.1, 0.4)] if "l" in free else [None]
             for l0 in starts_l:
                 x0 = []
                 for k in free:
                     x0.append({"l": np.log(l0) if l0 else 0.0, "s2": np.log(scale**2),
                                "nug": np.log(1e-3 * scale**2)}[k])
                 x0 = np.clip(x0, [bounds[k][0] for k in free], [bounds[k][1] for k in free])
-                r = minimize(nll, x0, method="L-BFGS-B", bounds=[tuple(bounds[k]) for k in free])
+                r = minimize(nll, x0, method="L-BFGS-B", bounds=[tuple(bounds[k]) for k in free],
+                             options={"maxiter": 80})
                 self._runs = getattr(self, "_runs", []) + [(r.fun, r.nfev, r.message, np.exp(r.x))]
                 if best is None or r.fun < best.fun:
                     best = r
@@ -165,6 +167,17 @@ class SurfaceGP:
         self.length_scale_, self.variance_, self.nugget_ = p["l"], p["s2"], p["nug"]
         self._condition()
         return self
+
+    def _tap_spacing(self, T) -> float:
+        """Median surface distance from each tap's main node to the nearest other tap's, m."""
+        main = np.asarray(T.argmax(axis=1)).ravel()
+        if len(main) < 2:
+            return 0.05 * float(self.distance.max())
+        d = self.distance[np.ix_(main, main)].copy()
+        np.fill_diagonal(d, np.inf)
+        nn = d.min(axis=1)
+        nn = nn[np.isfinite(nn) & (nn > 0)]
+        return float(np.median(nn)) if nn.size else 0.05 * float(self.distance.max())
 
     def log_marginal_likelihood(self, length_scale, variance, nugget) -> float:
         """Log marginal likelihood of the fitted taps at the given hyperparameters."""

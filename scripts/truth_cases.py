@@ -190,8 +190,11 @@ def practical_points(case, body, rng, n=None):
     if case == "wing":
         a, b, R, k2 = _wing_params()
         pts = []
+        # Three chordwise rows, taps packed towards the leading edge (eta = pi) as practice has it.
+        s = np.linspace(-1, 1, 16, endpoint=False) + 1.0 / 16
+        eta_row = np.pi + np.pi * np.sign(s) * np.abs(s) ** 1.7
         for y in np.array([-0.6, 0.0, 0.6]) + rng.normal(0, 0.05):
-            for e in np.linspace(0, 2 * np.pi, 14, endpoint=False) + rng.normal(0, 0.03):
+            for e in eta_row + rng.normal(0, 0.01, len(eta_row)):
                 pts.append([a * np.cos(e), y, 0.5 + b * np.sin(e)])
         return np.array(pts)
     raise ValueError(case)
