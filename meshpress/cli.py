@@ -15,7 +15,7 @@ import sys
 from . import __version__
 from .errors import InputError
 
-COMMANDS = ["loads", "demo"]
+COMMANDS = ["loads", "demo", "uncertainty", "plan"]
 
 
 class _Parser(argparse.ArgumentParser):

@@ -186,7 +186,9 @@ def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrie
     kind = taps.kind if taps is not None else "cp"
     wb = body.axles.wheelbase if body.axles is not None else None
     ref_area = ref_area or body.frontal_area()
-    names, G = figure_face_weights(body, kind=kind, q=q, ref_area=ref_area, wheelbase=wb, names=tuple(figures))
+    # Without q, coefficients from Pa readings are planned per unit q: relative variances do not depend on it.
+    q_eff = q if (q or kind == "cp") else 1.0
+    names, G = figure_face_weights(body, kind=kind, q=q_eff, ref_area=ref_area, wheelbase=wb, names=tuple(figures))
     missing = [f for f in figures if f not in names]
     if missing:
         raise InputError(f"cannot plan for {', '.join(missing)}: needs axle positions (CLF, CLR, CPM) or q (N figures)")
@@ -223,4 +225,5 @@ def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrie
     plan.carrier = carrier
     plan.figure_weights = a
     plan.node_sd_before = np.sqrt(np.maximum(np.diag(cov), 0.0))
+    plan.absolute = n_taps >= 3 and (kind == "cp" or bool(q))
     return plan
