@@ -21,7 +21,7 @@ checked by its eigenvalues and negative ones are clipped to zero (the nearest
 positive semi-definite matrix in the Frobenius norm, Higham 1988); the size of
 the clipped part is recorded in ``clipped_``.
 
-Fit.  ``s``, ``l`` and the nugget maximise the marginal likelihood of the taps
+Fit.  ``s``, ``l`` and the nugget (at most NUGGET_MAX of ``s^2``) maximise the marginal likelihood of the taps
 (Rasmussen and Williams eq. 2.30), by L-BFGS-B on their logarithms from a few
 starting length scales.
 
@@ -39,6 +39,7 @@ import scipy.linalg as sla
 from .errors import InputError
 
 KERNELS = ("matern32", "exponential")
+NUGGET_MAX = 0.1  # largest fitted nugget, as a fraction of the field variance
 
 
 def kernel(r: np.ndarray, name: str = "matern32") -> np.ndarray:
@@ -122,14 +123,19 @@ class SurfaceGP:
             # scale makes every integral look certain: the lower bound is the median nearest-tap distance.
             length_bounds = (self._tap_spacing(T), 3.0 * dmax)
         fixed = {"l": self.length_scale, "s2": self.variance, "nug": self.nugget}
+        # The nugget is fitted as a fraction of the field variance, at most NUGGET_MAX: left free, a field the
+        # kernel cannot follow is "explained" as pure noise, and noise averages out of every integral, so the
+        # bands would shrink exactly when the model fits worst.
         bounds = {"l": np.log(length_bounds), "s2": np.log([1e-4 * scale**2, 1e2 * scale**2]),
-                  "nug": np.log([1e-8 * scale**2, 1.0 * scale**2])}
+                  "nug": np.log([1e-8, NUGGET_MAX])}
         free = [k for k in ("l", "s2", "nug") if fixed[k] is None]
 
         def unpack(theta):
             p = dict(fixed)
             for k, t in zip(free, theta):
                 p[k] = float(np.exp(t))
+            if fixed["nug"] is None:
+                p["nug"] = p["nug"] * p["s2"]
             return p
 
         def nll(theta):
@@ -151,7 +157,7 @@ class SurfaceGP:
                 x0 = []
                 for k in free:
                     x0.append({"l": np.log(l0) if l0 else 0.0, "s2": np.log(scale**2),
-                               "nug": np.log(1e-3 * scale**2)}[k])
+                               "nug": np.log(1e-3)}[k])
                 x0 = np.clip(x0, [bounds[k][0] for k in free], [bounds[k][1] for k in free])
                 r = minimize(nll, x0, method="L-BFGS-B", bounds=[tuple(bounds[k]) for k in free],
                              options={"maxiter": 80})

@@ -99,7 +99,7 @@ def main():
             for k, v in report[case][est].items():
                 print(f"    {k:<16} coverage {v['coverage']:.2f}  rms err {v['rms_err']:.4f}  rms u {v['rms_u']:.4f}"
                       f"  1.96u/rms err {v['halfwidth_over_rms_err']:.2f}  (n={v['n']})")
-    out = Path(__file__).resolve().parent / f"bench_uncertainty_{n}_{n_patches}.json"
+    out = Path(__file__).resolve().parent / f"bench_uncertainty_{n}_{n_patches}_{'-'.join(cases)}.json"
     out.write_text(json.dumps(report, indent=1))
     print(f"\nwrote {out}")
 
