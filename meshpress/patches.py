@@ -54,15 +54,26 @@ class Carrier:
         from .geodesic import SurfaceDistance
 
         v, f = np.asarray(body.vertices, float), np.asarray(body.faces, np.int64)
-        if len(v) > n_vertices * 1.2:
+        vc, fc = v.copy(), f.copy()
+        # One collapse pass can stop well short of a large reduction (1M faces -> 64k vertices instead of
+        # 2.5k), so repeat until the target is reached.
+        for _ in range(8):
+            if len(vc) <= n_vertices * 1.2:
+                break
             import fast_simplification
 
-            keep = n_vertices / len(v)
-            vc, fc = fast_simplification.simplify(v.astype(np.float32), f.astype(np.int32),
+            keep = n_vertices / len(vc)
+            v2, f2 = fast_simplification.simplify(vc.astype(np.float32), fc.astype(np.int32),
                                                   target_reduction=float(1 - keep))
-            vc, fc = _drop_unused(np.asarray(vc, float), np.asarray(fc, np.int64))
-        else:
-            vc, fc = v.copy(), f.copy()
+            v2, f2 = _drop_unused(np.asarray(v2, float), np.asarray(f2, np.int64))
+            if len(v2) >= len(vc):
+                break
+            vc, fc = v2, f2
+        if len(vc) > 4 * n_vertices:
+            from .errors import InputError
+
+            raise InputError(f"could not simplify the body below {len(vc)} vertices for the covariance "
+                             f"(wanted about {n_vertices}); clean the mesh or lower its size first")
         self.body = body
         self.vertices, self.faces = vc, fc
         self.normals = _vertex_normals(vc, fc)

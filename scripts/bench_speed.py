@@ -1,6 +1,6 @@
 """Speed on a 1-million-face body with 200 taps: bands and planning 20 taps.
 
-The car-like sample body at 2500 x 200 sections (1,000,000 faces), 200 taps at
+The car-like sample body at 1000 stations x 500 around (1,000,000 faces), 200 taps at
 random with the invented Cp.  Times (wall clock, this machine) for: building
 the body's cached arrays, compute_uncertainty (carrier of 2500 patches, surface
 distances, kriging fit, bands: what ``meshpress uncertainty`` adds to
@@ -28,7 +28,7 @@ from meshpress.uncertainty import compute_uncertainty  # noqa: E402
 
 def main():
     t = time.perf_counter()
-    body, cp, _ = tc.car(2500, 200)
+    body, cp, _ = tc.car(1000, 500)
     _ = body.area_vectors, body.centroids, body.face_normals, body.centroid_tree
     t_body = time.perf_counter() - t
     rng = np.random.default_rng(4)
