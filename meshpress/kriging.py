@@ -112,7 +112,7 @@ class SurfaceGP:
         nv = np.zeros(n) if noise_var is None else np.broadcast_to(np.asarray(noise_var, float), (n,)).copy()
         self.T_, self.y_, self.noise_var_ = T, y, nv
         self.cols_ = np.unique(T.indices)
-        TJ = T[:, self.cols_].toarray()
+        TJ = T[:, self.cols_].tocsr()
         DJ = self.distance[np.ix_(self.cols_, self.cols_)]
         scale = float(np.std(y)) if n > 1 and np.std(y) > 0 else max(abs(float(np.mean(y))), 1.0)
         self.mean_variance_ = (self.mean_variance if self.mean_variance is not None
@@ -187,7 +187,7 @@ class SurfaceGP:
 
     def log_marginal_likelihood(self, length_scale, variance, nugget) -> float:
         """Log marginal likelihood of the fitted taps at the given hyperparameters."""
-        TJ = self.T_[:, self.cols_].toarray()
+        TJ = self.T_[:, self.cols_].tocsr()
         DJ = self.distance[np.ix_(self.cols_, self.cols_)]
         S = self._tap_cov(TJ, DJ, length_scale, variance, nugget, self.noise_var_)
         c = sla.cho_factor(S, lower=True)
@@ -196,7 +196,8 @@ class SurfaceGP:
 
     def _tap_cov(self, TJ, DJ, l, s2, nug, nv):
         K = self.mean_variance_ + s2 * kernel(DJ / l, self.kernel)
-        return TJ @ K @ TJ.T + np.diag(nv + nug)
+        A = np.asarray(TJ @ K)  # sparse rows (3 weights each) times dense: cheap
+        return np.asarray(TJ @ A.T) + np.diag(nv + nug)
 
     def _condition(self):
         """Carrier covariance at the fitted values, clipped to positive semi-definite."""

