@@ -15,7 +15,7 @@ import sys
 from . import __version__
 from .errors import InputError
 
-COMMANDS = ["loads", "compare", "demo", "run", "diff", "view"]
+COMMANDS = ["loads", "compare", "uncertainty", "plan", "demo", "run", "diff", "view"]
 
 
 class _Parser(argparse.ArgumentParser):

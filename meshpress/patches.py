@@ -1,0 +1,184 @@
+"""A coarse carrier surface for covariances on big bodies.
+
+A Gaussian-process model needs the covariance between every pair of places on
+the surface, and surface (geodesic) distances need a factorised Laplacian: both
+grow too fast to use a million-face body directly.  The body is therefore
+simplified (quadric edge collapse, Garland and Heckbert 1997, via
+fast-simplification) to a carrier of a few thousand vertices.  Each carrier
+vertex stands for a *patch* of the body (the fine faces that lean on it); the
+field is modelled by its values at the carrier vertices, and
+
+- a fine face's value is an inverse-distance mean of its (up to) 4 nearest
+  carrier vertices whose normals agree with the face's (so the two skins of a
+  thin panel do not mix), a sparse ``(m, n_c)`` matrix ``B``;
+- a surface point (a tap) takes the barycentric mix of the carrier face
+  nearest to it, a sparse ``(k, n_c)`` matrix.
+
+Cost in accuracy: detail finer than the patch size (about
+``sqrt(area / n_c)``) is not represented; it behaves as extra "nugget" noise at
+the taps, which the kriging fit absorbs.  docs/uncertainty.md measures the
+effect of ``n_c`` on the benchmark bands.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import scipy.sparse as sp
+
+
+class Carrier:
+    """Simplified copy of a body with all-pairs surface distances.
+
+    Parameters
+    ----------
+    body : Body
+    n_vertices : int
+        Target number of carrier vertices (patches); the body itself is used
+        when it is smaller.
+    progress : Progress, optional
+
+    Attributes
+    ----------
+    vertices : (n_c, 3) float
+        Carrier vertex positions, m, vehicle frame.
+    faces : (f_c, 3) int
+    normals : (n_c, 3) float
+        Area-weighted unit vertex normals.
+    distance : (n_c, n_c) float
+        Symmetrised heat-method surface distance between carrier vertices, m.
+    face_matrix : (m, n_c) scipy.sparse.csr_matrix
+        Fine face values from carrier vertex values; rows sum to 1.
+    """
+
+    def __init__(self, body, n_vertices: int = 2500, *, progress=None):
+        from .geodesic import SurfaceDistance
+
+        v, f = np.asarray(body.vertices, float), np.asarray(body.faces, np.int64)
+        vc, fc = v.copy(), f.copy()
+        # One collapse pass can stop well short of a large reduction (1M faces -> 64k vertices instead of
+        # 2.5k), so repeat until the target is reached.
+        for _ in range(8):
+            if len(vc) <= n_vertices * 1.2:
+                break
+            import fast_simplification
+
+            keep = n_vertices / len(vc)
+            v2, f2 = fast_simplification.simplify(vc.astype(np.float32), fc.astype(np.int32),
+                                                  target_reduction=float(1 - keep))
+            v2, f2 = _drop_unused(np.asarray(v2, float), np.asarray(f2, np.int64))
+            if len(v2) >= len(vc):
+                break
+            vc, fc = v2, f2
+        if len(vc) > 4 * n_vertices:
+            from .errors import InputError
+
+            raise InputError(f"could not simplify the body below {len(vc)} vertices for the covariance "
+                             f"(wanted about {n_vertices}); clean the mesh or lower its size first")
+        self.body = body
+        self.vertices, self.faces = vc, fc
+        self.normals = _vertex_normals(vc, fc)
+        solver = SurfaceDistance(vc, fc)
+        rows = range(len(vc))
+        it = progress.track(rows, len(vc), "surface distances") if progress else rows
+        d = np.empty((len(vc), len(vc)))
+        for i in it:
+            d[i] = solver.from_vertex(i)
+        d = 0.5 * (d + d.T)
+        # Vertices the heat flow cannot reach (separate shells) come back as inf/nan: treat as far apart.
+        bad = ~np.isfinite(d)
+        if bad.any():
+            d[bad] = 10.0 * np.nanmax(np.where(bad, np.nan, d))
+        np.fill_diagonal(d, 0.0)
+        self.distance = d
+        self.face_matrix = self.points_matrix_idw(body.centroids, body.face_normals)
+
+    @property
+    def n(self) -> int:
+        return len(self.vertices)
+
+    @property
+    def spacing(self) -> float:
+        """Typical patch size, m: sqrt(carrier area / n_c)."""
+        t = self.vertices[self.faces]
+        area = 0.5 * np.linalg.norm(np.cross(t[:, 1] - t[:, 0], t[:, 2] - t[:, 0]), axis=1).sum()
+        return float(np.sqrt(area / self.n))
+
+    def points_matrix_idw(self, points, normals, k: int = 4, chunk: int = 200_000):
+        """(p, n_c) sparse: inverse-distance weights of the ``k`` nearest normal-compatible carrier vertices."""
+        from scipy.spatial import cKDTree
+
+        tree = cKDTree(self.vertices)
+        points = np.asarray(points, float)
+        normals = np.asarray(normals, float)
+        kq = min(3 * k, self.n)
+        rows, cols, vals = [], [], []
+        for s in range(0, len(points), chunk):
+            p, nrm = points[s : s + chunk], normals[s : s + chunk]
+            d, j = tree.query(p, k=kq)
+            d, j = d.reshape(len(p), kq), j.reshape(len(p), kq)
+            ok = np.einsum("pkd,pd->pk", self.normals[j], nrm) > 0.0
+            ok[:, 0] |= ~ok.any(axis=1)  # nothing compatible: take the nearest anyway
+            # keep the k nearest compatible ones
+            rank = np.cumsum(ok, axis=1)
+            ok &= rank <= k
+            w = np.where(ok, 1.0 / np.maximum(d, 1e-9) ** 2, 0.0)
+            w /= w.sum(axis=1, keepdims=True)
+            r = np.repeat(np.arange(s, s + len(p)), kq)
+            m = w.ravel() > 0
+            rows.append(r[m])
+            cols.append(j.ravel()[m])
+            vals.append(w.ravel()[m])
+        return sp.csr_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
+                             shape=(len(points), self.n))
+
+    def points_matrix(self, points):
+        """(p, n_c) sparse: barycentric weights on the nearest carrier face of each surface point (m)."""
+        from trimesh.triangles import closest_point, points_to_barycentric
+        from scipy.spatial import cKDTree
+
+        points = np.asarray(points, float).reshape(-1, 3)
+        tri = self.vertices[self.faces]
+        cen = tri.mean(axis=1)
+        tree = cKDTree(cen)
+        kq = min(16, len(self.faces))
+        _, cand = tree.query(points, k=kq)
+        cand = cand.reshape(len(points), kq)
+        best = np.empty(len(points), np.int64)
+        bestp = np.empty((len(points), 3))
+        for i, p in enumerate(points):
+            c = cand[i]
+            cp = closest_point(tri[c], np.repeat(p[None], len(c), axis=0))
+            j = int(np.argmin(np.linalg.norm(cp - p, axis=1)))
+            best[i], bestp[i] = c[j], cp[j]
+        bary = np.clip(points_to_barycentric(tri[best], bestp), 0.0, 1.0)
+        bary /= bary.sum(axis=1, keepdims=True)
+        rows = np.repeat(np.arange(len(points)), 3)
+        return sp.csr_matrix((bary.ravel(), (rows, self.faces[best].ravel())), shape=(len(points), self.n))
+
+    def fine_weights(self, face_weights) -> np.ndarray:
+        """(n_c, k) float: per-face figure weights (m, k) gathered onto the carrier, ``B^T G``."""
+        g = np.asarray(face_weights, float)
+        return np.asarray(self.face_matrix.T @ g)
+
+    def nearest_vertex(self, points) -> np.ndarray:
+        """(p,) int: nearest carrier vertex of each point (straight line)."""
+        from scipy.spatial import cKDTree
+
+        return cKDTree(self.vertices).query(np.asarray(points, float).reshape(-1, 3))[1]
+
+
+def _drop_unused(v, f):
+    used = np.unique(f)
+    remap = -np.ones(len(v), np.int64)
+    remap[used] = np.arange(len(used))
+    return v[used], remap[f]
+
+
+def _vertex_normals(v, f):
+    t = v[f]
+    a = 0.5 * np.cross(t[:, 1] - t[:, 0], t[:, 2] - t[:, 0])
+    n = np.zeros_like(v)
+    for c in range(3):
+        np.add.at(n, f[:, c], a)
+    ln = np.linalg.norm(n, axis=1, keepdims=True)
+    return n / np.maximum(ln, 1e-300)

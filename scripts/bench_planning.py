@@ -1,0 +1,78 @@
+"""Planning benchmark on the car-like body (invented known truth).
+
+For each case: a practical 40-tap layout (40 of the 57 taps of
+scripts/make_samples.py tap_layout, positions jittered by ~5 cm), then either
+20 taps planned by ``plan_taps`` (figures CL, CLF, CLR; 100 mm spacing) or 20
+taps at random on the surface.  With each 60-tap set the kriging estimate of
+CL, CLF, CLR is compared with the truth.  Reported: mean absolute actual error
+over the cases (and the mean predicted u), for 40 taps, 40 + planned, 40 +
+random.  The RBF field's errors are given for information.
+
+Run: ``python scripts/bench_planning.py [n_cases]`` (default 12).
+"""
+
+from __future__ import annotations
+
+import json
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+import truth_cases as tc  # noqa: E402
+
+from meshpress.fields import make_field  # noqa: E402
+from meshpress.patches import Carrier  # noqa: E402
+from meshpress.planning import plan_taps  # noqa: E402
+from meshpress.uncertainty import compute_uncertainty, figure_face_weights  # noqa: E402
+
+FIGS = ("CL", "CLF", "CLR")
+
+
+def main():
+    n_cases = int(sys.argv[1]) if len(sys.argv) > 1 else 12
+    rng = np.random.default_rng(11)
+    body, cp, _ = tc.car()
+    area = body.frontal_area()
+    car = Carrier(body, 2500)
+    names, G = figure_face_weights(body, kind="cp", ref_area=area, wheelbase=body.axles.wheelbase)
+    truth = dict(zip(names, tc.truth_face_values(body, cp) @ G))
+    res = {k: {f: [] for f in FIGS} for k in ("base40", "planned", "random")}
+    res_u = {k: {f: [] for f in FIGS} for k in res}
+    res_rbf = {k: {f: [] for f in FIGS} for k in res}
+    t_plan = []
+    for c in range(n_cases):
+        base = tc.practical_points("car", body, rng, n=40)
+        t0 = tc.make_taps(body, cp, base)
+        t = time.perf_counter()
+        plan = plan_taps(body, t0, figures=FIGS, n_add=20, carrier=car, ref_area=area, min_spacing=0.1)
+        t_plan.append(time.perf_counter() - t)
+        sets = {"base40": base, "planned": np.vstack([base, plan.points]),
+                "random": np.vstack([base, tc.random_surface_points(body, 20, rng)])}
+        for k, pts in sets.items():
+            taps = tc.make_taps(body, cp, pts)
+            rbf = make_field("rbf").fit(body, taps)
+            r = compute_uncertainty(body, taps, ref_area=area, carrier=car, field=rbf)
+            for f in FIGS:
+                b = r.band(f)
+                res[k][f].append(abs(b.value - truth[f]))
+                res_u[k][f].append(b.u)
+                res_rbf[k][f].append(abs(b.field_value - truth[f]))
+        print(f"case {c + 1}/{n_cases}: " + "  ".join(
+            f"{k} " + ",".join(f"{res[k][f][-1]:.3f}" for f in FIGS) for k in res), flush=True)
+    out = {"n_cases": n_cases, "median_plan_s": float(np.median(t_plan)), "truth": {f: truth[f] for f in FIGS}}
+    for k in res:
+        out[k] = {f: {"mean_abs_err": float(np.mean(res[k][f])), "mean_u": float(np.mean(res_u[k][f])),
+                      "rbf_mean_abs_err": float(np.mean(res_rbf[k][f]))} for f in FIGS}
+    print(json.dumps(out, indent=1))
+    for f in FIGS:
+        p, r = out["planned"][f]["mean_abs_err"], out["random"][f]["mean_abs_err"]
+        print(f"{f}: mean |error| base {out['base40'][f]['mean_abs_err']:.4f}  +20 planned {p:.4f}  "
+              f"+20 random {r:.4f}  planned/random {p / r:.2f}")
+    (Path(__file__).resolve().parent / f"bench_planning_{n_cases}.json").write_text(json.dumps(out, indent=1))
+
+
+if __name__ == "__main__":
+    main()

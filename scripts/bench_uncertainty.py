@@ -1,0 +1,108 @@
+"""Coverage benchmark of the uncertainty bands on known-truth cases.
+
+For each case (hemisphere, elliptic wing, car-like body; see truth_cases.py)
+and each of N random and N practical tap layouts, the taps read the exact Cp
+plus Gaussian noise of standard deviation U_TAP (stated to the model as the
+per-tap uncertainty), the kriging estimate and its band are computed, and the
+truth (exact Cp integrated over the same faces) is compared with the 95 %
+interval.  Reported per case and figure: coverage (fraction of layouts whose
+interval holds the truth), the RMS actual error, the RMS standard uncertainty,
+and the ratio of the mean 95 % half-width to the RMS error (target: coverage
+0.90-0.98, ratio <= 3).  The RBF field's figures are scored against the same
+band for information.
+
+Run: ``python scripts/bench_uncertainty.py [N] [n_patches]`` (default 50, 2500).
+"""
+
+from __future__ import annotations
+
+import json
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+import truth_cases as tc  # noqa: E402
+
+from meshpress.fields import make_field  # noqa: E402
+from meshpress.patches import Carrier  # noqa: E402
+from meshpress.uncertainty import K95, Measurement, compute_uncertainty, figure_face_weights  # noqa: E402
+
+U_TAP = 0.005  # Cp: about 2.4 Pa at 100 km/h
+FIGS = ("CL", "CD", "CLF", "CLR")
+N_TAPS = {"hemisphere": 36, "wing": 48, "car": 57}
+
+
+def run_case(case, n_layouts, n_patches, rng):
+    body, cp, area = getattr(tc, case)()
+    area = area or body.frontal_area()
+    t0 = time.perf_counter()
+    car = Carrier(body, n_patches)
+    t_carrier = time.perf_counter() - t0
+    names, G = figure_face_weights(body, kind="cp", ref_area=area, wheelbase=body.axles.wheelbase)
+    truth = dict(zip(names, tc.truth_face_values(body, cp) @ G))
+    rows = []
+    times = []
+    for kind in ("random", "practical"):
+        for i in range(n_layouts):
+            if kind == "random":
+                pts = tc.random_surface_points(body, N_TAPS[case], rng)
+            else:
+                pts = tc.practical_points(case, body, rng)
+            taps = tc.make_taps(body, cp, pts)
+            taps = taps.with_values(taps.values + rng.normal(0, U_TAP, len(taps)))
+            meas = Measurement.build(len(taps), tap_u=np.full(len(taps), U_TAP))
+            rbf = make_field("rbf").fit(body, taps)
+            t = time.perf_counter()
+            r = compute_uncertainty(body, taps, ref_area=area, meas=meas, carrier=car, field=rbf)
+            times.append(time.perf_counter() - t)
+            for f in FIGS:
+                b = r.band(f)
+                rows.append(dict(layout=kind, figure=f, err=b.value - truth[f], u=b.u,
+                                 rbf_err=b.field_value - truth[f]))
+    return rows, t_carrier, float(np.median(times)), truth
+
+
+def summarise(rows, key="err"):
+    out = {}
+    for layout in ("random", "practical", "all"):
+        for f in FIGS + ("all",):
+            sel = [r for r in rows if (layout == "all" or r["layout"] == layout) and (f == "all" or r["figure"] == f)]
+            e = np.array([r[key] for r in sel])
+            u = np.array([r["u"] for r in sel])
+            out[f"{layout}/{f}"] = dict(
+                coverage=float(np.mean(np.abs(e) <= K95 * u)),
+                rms_err=float(np.sqrt(np.mean(e**2))),
+                rms_u=float(np.sqrt(np.mean(u**2))),
+                halfwidth_over_rms_err=float(K95 * np.mean(u) / np.sqrt(np.mean(e**2))),
+                n=len(sel),
+            )
+    return out
+
+
+def main():
+    n = int(sys.argv[1]) if len(sys.argv) > 1 else 50
+    n_patches = int(sys.argv[2]) if len(sys.argv) > 2 else 2500
+    cases = sys.argv[3].split(",") if len(sys.argv) > 3 else ["hemisphere", "wing", "car"]
+    rng = np.random.default_rng(2026)
+    report = {}
+    for case in cases:
+        rows, tc_s, t_med, truth = run_case(case, n, n_patches, rng)
+        report[case] = dict(kriging=summarise(rows), rbf_with_kriging_band=summarise(rows, "rbf_err"),
+                            carrier_s=tc_s, median_band_s=t_med, truth={k: float(v) for k, v in truth.items()})
+        print(f"\n== {case}: carrier {tc_s:.1f} s, median band {t_med:.2f} s, truth "
+              + ", ".join(f"{k} {truth[k]:+.4f}" for k in FIGS))
+        for est in ("kriging", "rbf_with_kriging_band"):
+            print(f"  estimator {est}")
+            for k, v in report[case][est].items():
+                print(f"    {k:<16} coverage {v['coverage']:.2f}  rms err {v['rms_err']:.4f}  rms u {v['rms_u']:.4f}"
+                      f"  1.96u/rms err {v['halfwidth_over_rms_err']:.2f}  (n={v['n']})")
+    out = Path(__file__).resolve().parent / f"bench_uncertainty_{n}_{n_patches}_{'-'.join(cases)}.json"
+    out.write_text(json.dumps(report, indent=1))
+    print(f"\nwrote {out}")
+
+
+if __name__ == "__main__":
+    main()

@@ -1,0 +1,200 @@
+"""Known-truth cases for the uncertainty and planning benchmarks.
+
+- ``hemisphere``: a unit hemisphere dome on the ground in potential flow along
+  x, Cp = 1 - 9/4 sin^2(theta), theta from the flow axis [text: Batchelor,
+  An Introduction to Fluid Dynamics, 1967, sec. 6.8].  Open surface (no base).
+- ``wing``: a straight wing of elliptic section (chord 1 m, t/c 0.12, span 2 m,
+  4 deg incidence) in potential flow with the circulation that puts the rear
+  stagnation point at the trailing edge.  The ellipse is the image of a circle
+  under the Joukowski map z = zeta + k^2/zeta, so the surface speed is exact in
+  closed form [text: Milne-Thomson, Theoretical Hydrodynamics, ch. 6]; the
+  section lift is rho U Gamma (Kutta-Joukowski), which the benchmark checks.
+  Open at the tips (Cp is two-dimensional).
+- ``car``: meshpress.samples.car_body with the invented car_cp field (INVENTED
+  known truth), practical layout from scripts/make_samples.py tap_layout.
+
+Truth figures are the integral of the exact Cp over the same mesh faces, so
+the error measured is the interpolation's alone.
+"""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+import numpy as np
+
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+
+from meshpress.body import Axles, Body  # noqa: E402
+from meshpress.projection import ProjectedTaps  # noqa: E402
+
+
+def hemisphere(sub: int = 5):
+    import trimesh
+
+    m = trimesh.creation.icosphere(subdivisions=sub)
+    v, f = np.asarray(m.vertices), np.asarray(m.faces)
+    c = v[f].mean(axis=1)
+    keep = c[:, 2] > 0
+    f = f[keep]
+    used = np.unique(f)
+    remap = -np.ones(len(v), int)
+    remap[used] = np.arange(len(used))
+    v, f = v[used], remap[f]
+    v[:, 2] = np.maximum(v[:, 2], 0.0)
+    body = Body(v, f, axles=Axles(-0.5, 0.5))
+
+    def cp(points, normals=None):
+        p = np.asarray(points, float)
+        r2 = (p**2).sum(axis=1)
+        s2 = (p[:, 1] ** 2 + p[:, 2] ** 2) / np.maximum(r2, 1e-12)
+        return 1.0 - 2.25 * s2
+
+    return body, cp, np.pi  # base area
+
+
+WING = dict(chord=1.0, tc=0.12, span=2.0, alpha_deg=4.0)
+
+
+def _wing_params():
+    a = WING["chord"] / 2
+    b = a * WING["tc"]
+    R = (a + b) / 2
+    k2 = R * (a - b) / 2  # a = R + k2/R, b = R - k2/R
+    return a, b, R, k2
+
+
+def wing(n_chord: int = 160, n_span: int = 40):
+    a, b, R, k2 = _wing_params()
+    eta = np.linspace(0, 2 * np.pi, n_chord, endpoint=False)
+    # cluster points at the leading and trailing edges (eta = pi, 0)
+    eta = eta - 0.35 * np.sin(2 * eta) / 2
+    xs, zs = a * np.cos(eta), b * np.sin(eta)  # x rearward: trailing edge at +a
+    ys = np.linspace(-WING["span"] / 2, WING["span"] / 2, n_span + 1)
+    X = np.tile(xs, len(ys))
+    Z = np.tile(zs, len(ys)) + 0.5
+    Y = np.repeat(ys, n_chord)
+    v = np.column_stack([X, Y, Z])
+    idx = np.arange(len(v)).reshape(len(ys), n_chord)
+    a0, a1 = idx[:-1], np.roll(idx[:-1], -1, axis=1)
+    b0, b1 = idx[1:], np.roll(idx[1:], -1, axis=1)
+    f = np.concatenate([np.stack([a0, a1, b1], -1).reshape(-1, 3), np.stack([a0, b1, b0], -1).reshape(-1, 3)])
+    body = Body(v, f, axles=Axles(-0.25, 0.25))
+    if np.einsum("ij,ij->", body.area_vectors, body.centroids - [0, 0, 0.5]) < 0:
+        body = Body(v, f[:, ::-1], axles=Axles(-0.25, 0.25))
+
+    def cp(points, normals=None):
+        return wing_cp(points)
+
+    return body, cp, WING["chord"] * WING["span"]
+
+
+def wing_cp(points):
+    """Exact potential-flow Cp on the elliptic wing (x rearward, flow along +x, incidence alpha)."""
+    a, b, R, k2 = _wing_params()
+    al = np.radians(WING["alpha_deg"])
+    p = np.asarray(points, float)
+    # Flow comes from -x going +x; with z up, positive incidence tilts the flow upward relative to the chord,
+    # i.e. the free stream is U e^{i al} in the (x, z) plane; lift is then +z.
+    eta = np.arctan2((p[:, 2] - 0.5) / b, p[:, 0] / a)
+    zeta = R * np.exp(1j * eta)
+    gamma = 4 * np.pi * R * np.sin(al)  # Kutta: rear stagnation at eta = 0 (the trailing edge, x = +a)
+    # w = U (zeta e^{-i al} + R^2 e^{i al} / zeta) + i Gamma/(2 pi) log zeta; stagnation at zeta = R needs
+    # Gamma = 4 pi R U sin(al).  Velocity (u - i v) = (dw/dzeta) / (dz/dzeta), U = 1.
+    dw = np.exp(-1j * al) - R**2 * np.exp(1j * al) / zeta**2 + 1j * gamma / (2 * np.pi * zeta)
+    dz = 1 - k2 / zeta**2
+    speed = np.abs(dw / dz)
+    return 1.0 - speed**2
+
+
+def car(n_stations=200, n_around=100):
+    from meshpress import samples
+
+    v, f = samples.car_body(n_stations, n_around)
+    x0 = 0.5 * (samples.WHEELBASE_X[0] + samples.WHEELBASE_X[1])
+    v = v - [x0, 0, 0]
+    body = Body(v, f, axles=Axles(samples.WHEELBASE_X[0] - x0, samples.WHEELBASE_X[1] - x0))
+
+    def cp(points, normals):
+        return samples.car_cp(np.asarray(points) + [x0, 0, 0], normals)
+
+    return body, cp, None
+
+
+def truth_face_values(body, cp):
+    return cp(body.centroids, body.face_normals)
+
+
+def make_taps(body, cp, points, names=None):
+    """ProjectedTaps at the nearest surface points, exact Cp values (no noise)."""
+    from meshpress.projection import nearest_on_faces
+    from trimesh.triangles import points_to_barycentric
+
+    pts, fid, dist = nearest_on_faces(body, points)
+    bary = points_to_barycentric(body.triangles[fid], pts)
+    vals = cp(pts, body.face_normals[fid])
+    names = names or [f"T{i}" for i in range(len(pts))]
+    return ProjectedTaps(list(names), pts.copy(), pts, fid, bary, dist, vals, "cp")
+
+
+def random_surface_points(body, n, rng, allowed=None):
+    w = np.asarray(body.face_areas, float).copy()
+    if allowed is not None:
+        w[~allowed] = 0
+    fid = rng.choice(body.n_faces, size=n, p=w / w.sum())
+    r1, r2 = rng.random(n), rng.random(n)
+    s = np.sqrt(r1)
+    bary = np.column_stack([1 - s, s * (1 - r2), s * r2])
+    return np.einsum("kj,kjd->kd", bary, body.triangles[fid])
+
+
+def car_practical_points(body, jitter=0.0, rng=None):
+    """The 57-tap practical layout of scripts/make_samples.py on this body (x shifted to the axle frame)."""
+    from make_samples import tap_layout
+    from meshpress import samples
+
+    x0 = 0.5 * (samples.WHEELBASE_X[0] + samples.WHEELBASE_X[1])
+    e = 2.0 / 3.2  # the sample body's superellipse exponent
+    pts = []
+    for name, x, t in tap_layout():
+        if rng is not None and jitter:
+            x = float(np.clip(x + rng.normal(0, jitter), 0.05, 4.15))
+            t = t + rng.normal(0, jitter)
+        top, bot, hw = samples.profiles(np.array([x]))
+        u = abs(2 * x / samples.LENGTH - 1)
+        end = (1 - u**8) ** (1 / 8)
+        c, s_ = np.cos(t), np.sin(t)
+        y = hw[0] * end * np.sign(c) * abs(c) ** e
+        z = 0.5 * (top[0] + bot[0]) + 0.5 * (top[0] - bot[0]) * end * np.sign(s_) * abs(s_) ** e
+        pts.append([x - x0, y, z])
+    return np.array(pts)
+
+
+def practical_points(case, body, rng, n=None):
+    """A 'practical' layout: rows along the centre line and cross rows, jittered."""
+    if case == "car":
+        pts = car_practical_points(body, jitter=0.05, rng=rng)
+        if n is not None and n < len(pts):
+            pts = pts[np.sort(rng.choice(len(pts), n, replace=False))]
+        return pts
+    if case == "hemisphere":
+        # meridian rows every 45 deg plus a ring, jittered
+        pts = []
+        for phi in np.arange(0, np.pi, np.pi / 4) + rng.normal(0, 0.05):
+            for th in np.linspace(0.15, np.pi - 0.15, 9):
+                pts.append([np.cos(th), np.sin(th) * np.cos(phi), np.sin(th) * np.sin(phi)])
+        pts = np.array(pts)
+        pts[:, 2] = np.abs(pts[:, 2]) + 0.02
+        return pts / np.linalg.norm(pts, axis=1, keepdims=True) + rng.normal(0, 0.01, pts.shape)
+    if case == "wing":
+        a, b, R, k2 = _wing_params()
+        pts = []
+        # Three chordwise rows, taps packed towards the leading edge (eta = pi) as practice has it.
+        s = np.linspace(-1, 1, 16, endpoint=False) + 1.0 / 16
+        eta_row = np.pi + np.pi * np.sign(s) * np.abs(s) ** 1.7
+        for y in np.array([-0.6, 0.0, 0.6]) + rng.normal(0, 0.05):
+            for e in eta_row + rng.normal(0, 0.01, len(eta_row)):
+                pts.append([a * np.cos(e), y, 0.5 + b * np.sin(e)])
+        return np.array(pts)
+    raise ValueError(case)

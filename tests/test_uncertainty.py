@@ -1,0 +1,248 @@
+"""Bands of the load figures: closed-form propagation, kriging, reporting."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from meshpress.body import Axles, Body
+from meshpress.fields import make_field
+from meshpress.kriging import SurfaceGP
+from meshpress.patches import Carrier
+from meshpress.projection import ProjectedTaps, nearest_on_faces
+from meshpress.uncertainty import (K95, Measurement, compute_uncertainty, difference_u, figure_face_weights,
+                                   generic_tap_weights, measurement_var, rbf_tap_weights, report_numbers, sensor_u)
+
+from conftest import icosphere
+
+
+def sphere_cp(p):
+    """Sphere in potential flow along x: Cp = 1 - 9/4 sin^2(theta) [text: Batchelor 1967, sec. 6.8]."""
+    r2 = (p**2).sum(axis=1)
+    return 1.0 - 2.25 * (p[:, 1] ** 2 + p[:, 2] ** 2) / r2
+
+
+def make_taps(body, pts, values=None):
+    from trimesh.triangles import points_to_barycentric
+
+    cp, fid, dist = nearest_on_faces(body, pts)
+    bary = points_to_barycentric(body.triangles[fid], cp)
+    vals = sphere_cp(cp) if values is None else values
+    return ProjectedTaps([f"T{i}" for i in range(len(cp))], cp.copy(), cp, fid, bary, dist, vals, "cp")
+
+
+def fib_points(n, hemisphere=None):
+    i = np.arange(n) + 0.5
+    z = 1 - 2 * i / n
+    t = np.pi * (1 + 5**0.5) * i
+    p = np.column_stack([np.sqrt(1 - z**2) * np.cos(t), np.sqrt(1 - z**2) * np.sin(t), z])
+    if hemisphere == "front":
+        p = p[p[:, 0] < 0]
+    return p
+
+
+@pytest.fixture(scope="module")
+def sphere():
+    v, f = icosphere(3)
+    return Body(v, f, axles=Axles(-0.5, 0.5))
+
+
+def test_rbf_weights_match_unit_vector_fits(sphere):
+    taps = make_taps(sphere, fib_points(30))
+    names, G = figure_face_weights(sphere, kind="cp", ref_area=np.pi, wheelbase=1.0)
+    field = make_field("rbf").fit(sphere, taps)
+    W = rbf_tap_weights(field, G)
+    W2 = generic_tap_weights(make_field("rbf"), sphere, taps, G)
+    np.testing.assert_allclose(W, W2, rtol=1e-6, atol=1e-9)
+    # figure = W' y, the same as integrating the fitted field
+    np.testing.assert_allclose(taps.values @ W, field.face_values() @ G, rtol=1e-8, atol=1e-10)
+
+
+def test_closed_form_variance_matches_monte_carlo(sphere):
+    # Law of propagation for a linear model (JCGM 100:2008 GUM 5.1.2) checked by Monte Carlo propagation of
+    # distributions (JCGM 101:2008, GUM Supplement 1).
+    rng = np.random.default_rng(1)
+    taps = make_taps(sphere, fib_points(25))
+    names, G = figure_face_weights(sphere, kind="cp", ref_area=np.pi, wheelbase=1.0)
+    field = make_field("rbf").fit(sphere, taps)
+    W = rbf_tap_weights(field, G)
+    u = rng.uniform(0.005, 0.03, len(taps))
+    meas = Measurement.build(len(taps), tap_u=u)
+    sd = np.sqrt(measurement_var(W, meas))
+    n = 400
+    samples = np.empty((n, len(names)))
+    for s in range(n):
+        y = taps.values + rng.normal(0, u)
+        samples[s] = make_field("rbf").fit(sphere, taps.with_values(y)).face_values() @ G
+    mc = samples.std(axis=0, ddof=1)
+    k = names.index("CL")
+    # sd of a sample sd is about sd / sqrt(2 n): 4 of those
+    assert abs(mc[k] - sd[k]) < 4 * sd[k] / np.sqrt(2 * n)
+    assert np.all(np.abs(mc - sd) <= 4 * sd / np.sqrt(2 * n) + 1e-12)
+
+
+def test_reference_pressure_error_on_open_surface_matches_monte_carlo():
+    # Over an open surface a uniform offset gives force -p times the openings' vector area (divergence theorem).
+    v, f = icosphere(3)
+    keep = v[f].mean(axis=1)[:, 2] > 0
+    body = Body(v, f[keep], axles=Axles(-0.5, 0.5))
+    names, G = figure_face_weights(body, kind="cp", ref_area=np.pi, wheelbase=1.0)
+    meas = Measurement.build(3, u_p_ref=0.02)
+    var = measurement_var(np.zeros((3, len(names))), meas, G.sum(axis=0))
+    k = names.index("CL")
+    # base opening: unit disc, vector area pi (pointing down, outward of the missing base); CL per unit offset = 1
+    assert np.sqrt(var[k]) == pytest.approx(0.02 * 1.0, rel=0.02)
+    closed = Body(v, f)
+    _, Gc = figure_face_weights(closed, kind="cp", ref_area=np.pi, wheelbase=1.0)
+    assert np.all(np.abs(Gc.sum(axis=0)) < 1e-12)
+
+
+def test_sensor_accuracy_is_rectangular():
+    # GUM 4.3.7: a bound +/- a with no other knowledge -> u = a / sqrt(3)
+    assert sensor_u(3.0) == pytest.approx(3.0 / np.sqrt(3))
+    assert sensor_u(0.25, full_scale=2500.0) == pytest.approx(6.25 / np.sqrt(3))
+
+
+def test_difference_of_shared_taps_cancels_common_error():
+    rng = np.random.default_rng(2)
+    n = 12
+    wa, wb = rng.normal(size=n), rng.normal(size=n)
+    shared, own = 0.02, 0.01
+    u = difference_u(wa, wb, np.full(n, shared**2 + own**2), np.full(n, shared**2 + own**2), np.full(n, shared**2))
+    common = rng.normal(0, shared, (20000, n))
+    ea = common + rng.normal(0, own, (20000, n))
+    eb = common + rng.normal(0, own, (20000, n))
+    mc = (ea @ wa - eb @ wb).std()
+    assert u == pytest.approx(mc, rel=0.03)
+    # same weights: only the own parts remain
+    assert difference_u(wa, wa, np.full(n, shared**2 + own**2), np.full(n, shared**2 + own**2),
+                        np.full(n, shared**2)) == pytest.approx(np.sqrt(2) * own * np.linalg.norm(wa))
+
+
+def test_gp_posterior_matches_scikit_learn_on_a_line():
+    # Reference: scikit-learn GaussianProcessRegressor with ConstantKernel + ConstantKernel * Matern(nu=0.5 / 1.5),
+    # fixed hyperparameters (optimizer=None), alpha = noise variance.
+    from sklearn.gaussian_process import GaussianProcessRegressor
+    from sklearn.gaussian_process.kernels import ConstantKernel, Matern
+
+    x = np.linspace(0.0, 2.0, 81)
+    d = np.abs(x[:, None] - x[None, :])
+    idx = np.array([3, 11, 20, 34, 41, 55, 62, 77])
+    y = np.sin(3 * x[idx]) + 0.3 * x[idx]
+    T = np.zeros((len(idx), len(x)))
+    T[np.arange(len(idx)), idx] = 1.0
+    for name, nu in (("exponential", 0.5), ("matern32", 1.5)):
+        gp = SurfaceGP(d, kernel=name, length_scale=0.4, variance=0.7, nugget=1e-3, mean_variance=4.0).fit(T, y)
+        k = ConstantKernel(4.0, "fixed") + ConstantKernel(0.7, "fixed") * Matern(0.4, "fixed", nu=nu)
+        ref = GaussianProcessRegressor(k, alpha=1e-3, optimizer=None, normalize_y=False).fit(x[idx, None], y)
+        mu, cov = ref.predict(x[:, None], return_cov=True)
+        np.testing.assert_allclose(gp.node_mean(), mu, atol=1e-8)
+        np.testing.assert_allclose(gp.node_var(), np.diag(cov), atol=1e-8)
+        # Bayesian quadrature: trapezoid integral of the field, mean a'mu and variance a' Sigma a
+        a = np.full(len(x), x[1] - x[0])
+        a[[0, -1]] /= 2
+        m, v, _ = gp.figures(a)
+        assert m[0] == pytest.approx(a @ mu, abs=1e-8)
+        assert v[0] == pytest.approx(a @ cov @ a, rel=1e-6, abs=1e-10)
+        lml = ref.log_marginal_likelihood_value_
+        assert gp.log_marginal_likelihood(0.4, 0.7, 1e-3) == pytest.approx(lml, rel=1e-8)
+
+
+@pytest.mark.slow
+def test_ml_fit_matches_scikit_learn_optimum():
+    # Reference: scikit-learn GaussianProcessRegressor maximising the same marginal likelihood (kernel
+    # ConstantKernel(fixed) + ConstantKernel * Matern(nu=0.5) + WhiteKernel) on data drawn from the model.
+    from sklearn.gaussian_process import GaussianProcessRegressor
+    from sklearn.gaussian_process.kernels import ConstantKernel, Matern, WhiteKernel
+
+    rng = np.random.default_rng(5)
+    x = np.linspace(0, 10, 200)
+    d = np.abs(x[:, None] - x[None, :])
+    K = np.exp(-d / 0.3) + 1e-10 * np.eye(len(x))
+    f = np.linalg.cholesky(K) @ rng.normal(size=len(x))
+    idx = np.arange(0, 200, 2)
+    y = f[idx] + rng.normal(0, 0.05, len(idx))
+    T = np.zeros((len(idx), len(x)))
+    T[np.arange(len(idx)), idx] = 1.0
+    gp = SurfaceGP(d, mean_variance=25.0).fit(T, y)
+    k = (ConstantKernel(25.0, "fixed") + ConstantKernel(1.0, (1e-3, 1e2)) * Matern(0.5, (1e-2, 30), nu=0.5)
+         + WhiteKernel(1e-2, (1e-8, 1.0)))
+    ref = GaussianProcessRegressor(k, n_restarts_optimizer=3, random_state=0).fit(x[idx, None], y)
+    ours = gp.log_marginal_likelihood(gp.length_scale_, gp.variance_, gp.nugget_)
+    assert ours >= ref.log_marginal_likelihood_value_ - 0.05  # optimiser tolerance, in nats
+    ref_l = ref.kernel_.k1.k2.k2.length_scale
+    assert gp.length_scale_ == pytest.approx(ref_l, rel=0.1)
+
+
+def test_band_covers_sphere_truth_and_reports(sphere):
+    taps = make_taps(sphere, fib_points(40))
+    names, G = figure_face_weights(sphere, kind="cp", ref_area=np.pi, wheelbase=1.0)
+    truth = sphere_cp(sphere.centroids) @ G
+    res = compute_uncertainty(sphere, taps, ref_area=np.pi, field=make_field("rbf").fit(sphere, taps))
+    for k, n in enumerate(names):
+        b = res.band(n)
+        # Sphere in potential flow: zero force (d'Alembert) -- every figure should be inside its band.
+        assert b.lo95 <= truth[k] <= b.hi95, n
+    d = res.to_dict()
+    assert {"CL", "CL_u", "CL_lo95", "CL_hi95", "uncertainty_budget"} <= set(d)
+    hook = report_numbers(res, "CL")
+    assert hook["importance"].shape == (sphere.n_faces,)
+    assert np.all(hook["importance"] >= 0)
+    assert hook["figures"]["CL"]["hi95"] == pytest.approx(b.value + K95 * b.u if n == "CL" else
+                                                          res.band("CL").hi95)
+
+
+@pytest.mark.slow
+def test_figure_with_no_tap_near_its_region_gets_a_wide_band():
+    # The car-like sample body (invented field): 40 taps on the front half only, against 40 spread over the
+    # whole body.  The rear axle's figure depends on the unseen rear half, so its band must widen.
+    from meshpress import samples
+
+    v, f = samples.car_body(40, 30)
+    v = v - [2.15, 0, 0]
+    body = Body(v, f, axles=Axles(-1.3, 1.3))
+
+    def cp(p, n):
+        return samples.car_cp(p + [2.15, 0, 0], n)
+
+    rng = np.random.default_rng(3)
+    cen = body.centroids
+    out = {}
+    for where, ok in (("front", cen[:, 0] < -0.3), ("all", np.ones(body.n_faces, bool))):
+        fid = rng.choice(np.flatnonzero(ok), 40, replace=False)
+        taps = make_taps(body, cen[fid], cp(cen[fid], body.face_normals[fid]))
+        out[where] = compute_uncertainty(body, taps, ref_area=2.0)
+    assert out["front"].band("CLR").u > 2 * out["all"].band("CLR").u
+    assert out["front"].band("CLR").u > 1.5 * out["front"].band("CLF").u
+
+
+def test_carrier_on_big_body_is_simplified():
+    v, f = icosphere(5)
+    body = Body(v, f)
+    car = Carrier(body, 1000)
+    assert 800 < car.n < 1300
+    # surface distance between antipodes ~ pi (heat method, about 1-2 % on coarse meshes)
+    i = np.argmax(car.vertices[:, 2])
+    j = np.argmin(car.vertices[:, 2])
+    assert car.distance[i, j] == pytest.approx(np.pi, rel=0.05)
+    assert car.face_matrix.shape == (body.n_faces, car.n)
+    np.testing.assert_allclose(np.asarray(car.face_matrix.sum(axis=1)).ravel(), 1.0)
+
+
+@pytest.mark.slow
+def test_cli_uncertainty_runs_and_rejects_bad_accuracy(cli, samples_dir, tmp_path):
+    mesh, taps = samples_dir / "coupe.stl", samples_dir / "coupe_taps.csv"
+    base = [mesh, taps, "--length-unit", "mm", "--up", "+y", "--forward=-z", "--front-axle", "-250",
+            "--rear-axle", "2350", "--speed", "100 km/h", "--quiet", "--patches", "600"]
+    r = cli("uncertainty", *base, "--sensor-accuracy", "abc")
+    assert r.returncode == 2 and r.stderr.startswith("meshpress: error: --sensor-accuracy")
+    assert "Traceback" not in r.stderr
+    out = tmp_path / "u.json"
+    r = cli("uncertainty", *base, "--sensor-accuracy", "0.25%", "--full-scale", "2500", "--json", out)
+    assert r.returncode == 0, r.stderr
+    import json
+
+    d = json.loads(out.read_text())
+    u = d["uncertainty"]
+    assert u["CL_lo95"] < u["CL"] < u["CL_hi95"]
+    assert u["uncertainty_budget"]["CL"]["measurement_u"] > 0
