@@ -74,7 +74,6 @@ def _faces(path, body):
 
 
 def run(args) -> int:
-    import numpy as np
 
     from ..analysis import resolve_q
     from ..body import load_body
