@@ -94,6 +94,10 @@ def figure_face_weights(body, *, kind: str = "cp", q: float | None = None, ref_a
 def rbf_tap_weights(field, face_weights, *, chunk: int = 20_000) -> np.ndarray:
     """Tap weights of each figure for a fitted :class:`~meshpress.fields.rbf.RBFField`, analytically.
 
+    These are the weights of the RBF without bounded extrapolation
+    (``extrapolation="none"``): clamping to the tap range is not linear in the
+    tap values.
+
     The RBF interpolant is linear in the data: fitting it once to the identity
     matrix (one right-hand side per tap) gives every tap's cardinal function;
     integrating those against the face weights gives ``W`` with
