@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from .options import add_body_options, add_field_options, add_flow_options, max_distance_m, method_settings, speed_mps
+from .options import add_body_options, add_field_options, add_flow_options, method_settings, speed_mps, load_inputs
 
 
 def add_parser(sub):
@@ -28,14 +28,11 @@ def add_parser(sub):
 
 def run(args) -> int:
     from ..analysis import resolve_q
-    from ..body import load_body
     from ..compare import compare_methods, format_comparison
     from ..errors import InputError
     from ..fields import METHODS
     from ..progress import Progress
-    from ..projection import project_taps
     from ..results import write_json
-    from ..taps import read_taps
     from .loads import _check_output
 
     progress = Progress(enabled=False if args.quiet else None)
@@ -55,11 +52,7 @@ def run(args) -> int:
             raise InputError(f"--picture {args.picture!r}: the picture must be a .png file")
         if args.camera not in VIEWS:
             raise InputError(f"--camera {args.camera!r} is not one of: {', '.join(VIEWS)}")
-    body = load_body(args.mesh, length_unit=args.length_unit, up=args.up, forward=args.forward,
-                     front_axle=args.front_axle, rear_axle=args.rear_axle, ground=args.ground, progress=progress)
-    table = read_taps(args.taps, pressure_unit=args.pressure_unit)
-    with progress.step("projecting taps"):
-        taps = project_taps(body, table, max_distance=max_distance_m(args.max_tap_distance, args.length_unit))
+    body, taps = load_inputs(args, progress)
     fields = {} if args.picture else None
     c = compare_methods(body, taps, methods, settings=lambda name: method_settings(args, name), q=q,
                         ref_area=args.ref_area, p_ref=args.p_ref, progress=progress, face_values=fields)

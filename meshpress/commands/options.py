@@ -102,3 +102,25 @@ def method_settings(args, method=None) -> dict:
     if args.regions is not None:
         s.update(regions=args.regions, empty_value=args.empty_value)
     return s
+
+
+def load_inputs(args, progress):
+    """The body and, when ``args.taps`` is given, its taps placed on it, from the shared options.
+
+    Returns
+    -------
+    body : Body
+    taps : ProjectedTaps or None
+    """
+    from ..body import load_body
+    from ..projection import project_taps
+    from ..taps import read_taps
+
+    body = load_body(args.mesh, length_unit=args.length_unit, up=args.up, forward=args.forward,
+                     front_axle=args.front_axle, rear_axle=args.rear_axle, ground=args.ground, progress=progress)
+    if not args.taps:
+        return body, None
+    table = read_taps(args.taps, pressure_unit=args.pressure_unit)
+    with progress.step("projecting taps"):
+        taps = project_taps(body, table, max_distance=max_distance_m(args.max_tap_distance, args.length_unit))
+    return body, taps

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from .options import add_body_options, add_flow_options, max_distance_m, speed_mps
+from .options import add_body_options, add_flow_options, speed_mps, load_inputs
 
 PLAN_FIGURES = ("CL", "CD", "CS", "CLF", "CLR", "CPM")
 
@@ -76,13 +76,10 @@ def _faces(path, body):
 def run(args) -> int:
 
     from ..analysis import resolve_q
-    from ..body import load_body
     from ..errors import InputError
     from ..planning import plan_taps
     from ..progress import Progress
-    from ..projection import project_taps
     from ..results import write_atomic
-    from ..taps import read_taps
     from ..units import LENGTH_UNITS, length_factor, parse_quantity
 
     progress = Progress(enabled=False if args.quiet else None)
@@ -108,12 +105,7 @@ def run(args) -> int:
         for o in (args.out, args.picture):
             if o and p and Path(p).exists() and Path(o).exists() and Path(o).resolve() == Path(p).resolve():
                 raise InputError(f"refusing to write {o!r}: it is one of the input files")
-    body = load_body(args.mesh, length_unit=args.length_unit, up=args.up, forward=args.forward,
-                     front_axle=args.front_axle, rear_axle=args.rear_axle, ground=args.ground, progress=progress)
-    taps = None
-    if args.taps:
-        table = read_taps(args.taps, pressure_unit=args.pressure_unit)
-        taps = project_taps(body, table, max_distance=max_distance_m(args.max_tap_distance, args.length_unit))
+    body, taps = load_inputs(args, progress)
     plan = plan_taps(body, taps, figures=figures, n_add=args.add, n_patches=args.patches,
                      boxes=_boxes(args.exclude_box, body), excluded_faces=_faces(args.exclude_faces, body),
                      min_spacing=spacing, length_scale=ell, q=resolve_q(args.q, speed_mps(args.speed), args.air_density),

@@ -7,7 +7,7 @@ the bands (meshpress.uncertainty, meshpress.kriging).
 
 from __future__ import annotations
 
-from .options import add_body_options, add_field_options, add_flow_options, max_distance_m, method_settings, speed_mps
+from .options import add_body_options, add_field_options, add_flow_options, method_settings, speed_mps, load_inputs
 
 U_COLUMNS = ("u", "p_u", "cp_u", "sem", "p_sem", "cp_sem")
 
@@ -100,13 +100,10 @@ def run(args) -> int:
     import json
 
     from ..analysis import compute_loads, resolve_q
-    from ..body import load_body
     from ..errors import InputError
     from ..fields import make_field
     from ..progress import Progress
-    from ..projection import project_taps
     from ..results import _clean, write_atomic
-    from ..taps import read_taps
     from ..textreport import format_result
     from ..uncertainty import Measurement, compute_uncertainty, q_relative_u
     from .loads import _check_output
@@ -118,11 +115,7 @@ def run(args) -> int:
         raise InputError(f"--patches must be >= 50, got {args.patches}")
     if args.json:
         _check_output(args.json, (args.mesh, args.taps))
-    body = load_body(args.mesh, length_unit=args.length_unit, up=args.up, forward=args.forward,
-                     front_axle=args.front_axle, rear_axle=args.rear_axle, ground=args.ground, progress=progress)
-    table = read_taps(args.taps, pressure_unit=args.pressure_unit)
-    with progress.step("projecting taps"):
-        taps = project_taps(body, table, max_distance=max_distance_m(args.max_tap_distance, args.length_unit))
+    body, taps = load_inputs(args, progress)
     field = make_field(args.method, **method_settings(args))
     loads = compute_loads(body, taps, field, q=q, ref_area=args.ref_area, p_ref=args.p_ref, progress=progress)
     loads.inputs["taps"] = str(args.taps)
