@@ -33,7 +33,7 @@ def run(args) -> int:
     from ..fields import METHODS
     from ..progress import Progress
     from ..results import write_json
-    from .loads import _check_output
+    from ..results import check_not_input
 
     progress = Progress(enabled=False if args.quiet else None)
     # --method (shared with `loads`) is not used here: --methods picks the methods.
@@ -44,7 +44,7 @@ def run(args) -> int:
     q = resolve_q(args.q, speed_mps(args.speed), args.air_density)
     for out in (args.json, args.picture):
         if out:
-            _check_output(out, (args.mesh, args.taps))
+            check_not_input(out, (args.mesh, args.taps))
     if args.picture:
         from ..view3d import VIEWS
 

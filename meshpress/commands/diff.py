@@ -119,22 +119,15 @@ def run(args) -> int:
         inputs = [args.base, args.other]
     print(format_diff(d))
     if args.json:
-        import io
-
         import numpy as np
+
+        from ..results import replace_into
 
         faces = d.pop("face_delta_cp", None)
         out = Path(args.json)
         if faces is not None:
             npy = out.with_suffix(".faces.npy")
-            for i in inputs:
-                if npy.exists() and Path(i).exists() and npy.resolve() == Path(i).resolve():
-                    raise InputError(f"refusing to write {str(npy)!r}: it is one of the input files")
-            buf = io.BytesIO()
-            np.save(buf, faces)
-            tmp = npy.with_name("." + npy.name + ".tmp")
-            tmp.write_bytes(buf.getvalue())
-            tmp.replace(npy)
+            replace_into(npy, lambda tmp: np.save(tmp, faces), protect=inputs)
             d["face_delta_cp_file"] = npy.name
         write_atomic(out, json.dumps(_clean(d), indent=2) + "\n", protect=inputs)
         print(f"\n  wrote {out}")

@@ -27,13 +27,13 @@ def add_parser(sub):
 def run(args) -> int:
     from ..analysis import resolve_q, run_loads_parts
     from ..progress import Progress
-    from ..results import write_json
+    from ..results import check_not_input, write_json
     from ..textreport import format_result
 
     progress = Progress(enabled=False if args.quiet else None)
     q = resolve_q(args.q, speed_mps(args.speed), args.air_density)
     if args.json:
-        _check_output(args.json, (args.mesh, args.taps))
+        check_not_input(args.json, (args.mesh, args.taps))
     if args.report and Path(args.report).exists() and not Path(args.report).is_dir():
         from ..errors import InputError
 
@@ -57,11 +57,3 @@ def run(args) -> int:
         print(f"\n  wrote {files.html} (open it in a browser) and the files beside it")
     return 0
 
-
-def _check_output(out, inputs):
-    from ..errors import InputError
-
-    o = Path(out)
-    for i in inputs:
-        if o.exists() and Path(i).exists() and o.resolve() == Path(i).resolve():
-            raise InputError(f"refusing to write {out!r}: it is one of the input files")

@@ -79,7 +79,7 @@ def run(args) -> int:
     from ..errors import InputError
     from ..planning import plan_taps
     from ..progress import Progress
-    from ..results import write_atomic
+    from ..results import check_not_input, write_atomic
     from ..units import LENGTH_UNITS, length_factor, parse_quantity
 
     progress = Progress(enabled=False if args.quiet else None)
@@ -99,12 +99,9 @@ def run(args) -> int:
         if lv <= 0:
             raise InputError(f"--length-scale must be positive, got {args.length_scale}")
         ell = lv * length_factor(lu)
-    for p in (args.mesh, args.taps):
-        from pathlib import Path
-
-        for o in (args.out, args.picture):
-            if o and p and Path(p).exists() and Path(o).exists() and Path(o).resolve() == Path(p).resolve():
-                raise InputError(f"refusing to write {o!r}: it is one of the input files")
+    for o in (args.out, args.picture):
+        if o:
+            check_not_input(o, (args.mesh, args.taps))
     body, taps = load_inputs(args, progress)
     plan = plan_taps(body, taps, figures=figures, n_add=args.add, n_patches=args.patches,
                      boxes=_boxes(args.exclude_box, body), excluded_faces=_faces(args.exclude_faces, body),

@@ -106,7 +106,7 @@ def run(args) -> int:
     from ..results import _clean, write_atomic
     from ..textreport import format_result
     from ..uncertainty import Measurement, compute_uncertainty, q_relative_u
-    from .loads import _check_output
+    from ..results import check_not_input
 
     progress = Progress(enabled=False if args.quiet else None)
     speed = speed_mps(args.speed)
@@ -114,7 +114,7 @@ def run(args) -> int:
     if args.patches < 50:
         raise InputError(f"--patches must be >= 50, got {args.patches}")
     if args.json:
-        _check_output(args.json, (args.mesh, args.taps))
+        check_not_input(args.json, (args.mesh, args.taps))
     body, taps = load_inputs(args, progress)
     field = make_field(args.method, **method_settings(args))
     loads = compute_loads(body, taps, field, q=q, ref_area=args.ref_area, p_ref=args.p_ref, progress=progress)

@@ -62,9 +62,9 @@ def run(args) -> int:
     if args.camera == "all" and not args.png:
         raise InputError("--camera all needs --png OUT")
     if args.png:
-        for i in (args.mesh, args.taps):
-            if Path(args.png).exists() and Path(i).exists() and Path(args.png).resolve() == Path(i).resolve():
-                raise InputError(f"refusing to write {args.png!r}: it is one of the input files")
+        from ..results import check_not_input
+
+        check_not_input(args.png, (args.mesh, args.taps))
     progress = Progress(enabled=False if args.quiet else None)
     q = resolve_q(args.q, speed_mps(args.speed), args.air_density)
     run = run_loads_parts(
