@@ -1,20 +1,37 @@
 """Gaussian-process (kriging) model of a pressure field along the surface.
 
 Model.  The field's values ``f`` at the carrier vertices (:mod:`meshpress.patches`)
-are Gaussian with covariance
+are Gaussian with covariance ``K = tau^2 + s^2 R(l)``, where the correlation
+``R`` is one of two families, both *along the surface*, never the straight
+line through the body:
 
-    K_ij = tau^2 + s^2 * k(d_ij / l),   k(r) = (1 + sqrt(3) r) exp(-sqrt(3) r)
+- distance kernels ``R_ij = k(d_ij / l)`` on the heat-method surface distance
+  ``d_ij``: ``exponential`` ``k(r) = exp(-r)`` and ``matern32``
+  ``k(r) = (1 + sqrt(3) r) exp(-sqrt(3) r)`` (Rasmussen and Williams 2006,
+  eq. 4.17);
+- Matérn fields of the surface itself (``lb-matern12``, ``lb-matern32``,
+  ``lb-matern52``): the solution of the stochastic PDE
+  ``(2 nu / l^2 - Delta)^((nu + 1) / 2) f = white noise`` on the surface
+  (Whittle 1963; Lindgren, Rue and Lindström, JRSS B 73, 2011), written with
+  the eigenpairs ``Delta phi_k = -lambda_k phi_k`` of the carrier's
+  Laplace-Beltrami operator as
+  ``R = sum_k (2 nu / l^2 + lambda_k)^(-nu - 1) phi_k phi_k^T / c``
+  (Borovitskiy, Terenin, Mostowsky and Deisenroth, NeurIPS 2020), ``c``
+  making the area-mean variance 1; ``lb-heat`` is its limit nu -> infinity,
+  ``exp(-l^2 lambda_k / 2)``, the heat kernel at time ``l^2 / 2`` (the
+  surface's counterpart of the squared-exponential kernel).  These are positive definite by
+  construction for every smoothness ``nu``, which distance kernels are not.
 
-(Matérn nu = 3/2, Rasmussen and Williams 2006, eq. 4.17) with ``d_ij`` the
-heat-method distance *along the surface* between carrier vertices, never the
-straight line through the body.  ``tau^2`` is a broad prior on a constant mean
+``kernel="auto"`` fits every family member and keeps the one of highest
+marginal likelihood (type-II maximum likelihood model choice), so a smooth
+field gets a smooth kernel and a rough one a rough kernel.  ``tau^2`` is a broad prior on a constant mean
 (set from the data's size, so the mean is in effect estimated: the limit is
 ordinary kriging).  A tap reads ``y = T f + e`` with ``T`` the tap's
 barycentric row on the carrier and ``e`` independent noise of variance
 ``u_i^2 + nugget`` (its stated measurement variance plus a fitted nugget that
 also absorbs detail finer than a patch).
 
-Distances along a curved surface do not make every kernel positive definite
+Distances along a curved surface do not make every distance kernel positive definite
 (Feragen, Lauze, Hauberg, CVPR 2015; on the sphere Matérn is safe only for
 nu <= 1/2, Gneiting, Bernoulli 19, 2013).  The carrier covariance is therefore
 checked by its eigenvalues and negative ones are clipped to zero (the nearest
@@ -38,7 +55,10 @@ import scipy.linalg as sla
 
 from .errors import InputError
 
-KERNELS = ("matern32", "exponential")
+DISTANCE_KERNELS = ("exponential", "matern32")
+SPECTRAL_KERNELS = {"lb-matern12": 0.5, "lb-matern32": 1.5, "lb-matern52": 2.5, "lb-heat": np.inf}
+KERNELS = DISTANCE_KERNELS + tuple(SPECTRAL_KERNELS)
+AUTO_KERNELS = ("exponential",) + tuple(SPECTRAL_KERNELS)  # candidates of kernel="auto"
 NUGGET_MAX = 0.1  # largest fitted nugget, as a fraction of the field variance
 
 
@@ -49,17 +69,44 @@ def kernel(r: np.ndarray, name: str = "matern32") -> np.ndarray:
         return (1.0 + s) * np.exp(-s)
     if name == "exponential":
         return np.exp(-r)
-    raise InputError(f"kernel {name!r} is not one of: {', '.join(KERNELS)}")
+    raise InputError(f"kernel {name!r} is not one of: {', '.join(DISTANCE_KERNELS)}")
+
+
+def spectral_density(lam: np.ndarray, length_scale: float, nu: float) -> np.ndarray:
+    """Matérn spectral weights ``(2 nu / l^2 + lambda)^(-nu - 1)`` on a 2-D surface.
+
+    Parameters
+    ----------
+    lam : (k,) float
+        Laplace-Beltrami eigenvalues, 1/m2 (>= 0).
+    length_scale : float
+        m.
+    nu : float
+        Smoothness (0.5, 1.5, 2.5); ``inf`` gives the limit, the heat kernel
+        ``exp(-l^2 lambda / 2)`` (the surface's squared-exponential kernel).
+    """
+    if np.isinf(nu):
+        return np.exp(-0.5 * length_scale**2 * lam)
+    return (2.0 * nu / length_scale**2 + lam) ** (-nu - 1.0)
 
 
 class SurfaceGP:
-    """Kriging on a set of nodes with a given distance matrix.
+    """Kriging on a set of nodes (carrier vertices) along a surface.
 
     Parameters
     ----------
     distance : (n_c, n_c) float
-        Symmetric node-to-node distance, m (surface distance on a carrier).
-    kernel : {"matern32", "exponential"}
+        Symmetric node-to-node surface distance, m (heat method on a carrier).
+        Used by the distance kernels, and by every kernel for the length
+        scale's bounds.
+    kernel : str
+        One of :data:`KERNELS`, or ``"auto"`` (the candidates
+        :data:`AUTO_KERNELS` that the inputs allow, best marginal likelihood).
+    spectrum : (lam, phi, area), optional
+        Laplace-Beltrami eigenvalues ``(k,)`` 1/m2, mass-orthonormal
+        eigenvectors ``(n_c, k)`` and the surface area m2
+        (:meth:`meshpress.patches.Carrier.spectrum`); needed by the ``lb-``
+        kernels.
     length_scale, variance, nugget : float, optional
         Fix these hyperparameters instead of fitting them (m, value unit^2,
         value unit^2).
@@ -69,18 +116,25 @@ class SurfaceGP:
 
     Attributes (after fit)
     ----------------------
-    length_scale_, variance_, nugget_, mean_variance_ : float
+    kernel_ : str
+        The kernel used (the chosen one for ``"auto"``).
+    length_scale_, variance_, nugget_, mean_variance_, nll_ : float
+    candidates_ : dict
+        ``{kernel: negative log marginal likelihood}`` of every kernel tried.
     clipped_ : float
-        Diagonal shift added to the carrier correlation matrix to make it
-        positive definite (0 when it already was).
+        Diagonal shift added to a distance kernel's correlation matrix to make
+        it positive definite (0 when it already was, always 0 for ``lb-``).
     """
 
-    def __init__(self, distance, *, kernel: str = "exponential", length_scale=None, variance=None, nugget=None,
-                 mean_variance=None):
+    def __init__(self, distance, *, kernel: str = "exponential", spectrum=None, length_scale=None, variance=None,
+                 nugget=None, mean_variance=None):
         self.distance = np.asarray(distance, float)
-        if kernel not in KERNELS:
-            raise InputError(f"kernel {kernel!r} is not one of: {', '.join(KERNELS)}")
+        if kernel != "auto" and kernel not in KERNELS:
+            raise InputError(f"kernel {kernel!r} is not one of: auto, {', '.join(KERNELS)}")
+        if kernel in SPECTRAL_KERNELS and spectrum is None:
+            raise InputError(f"kernel {kernel!r} needs the surface's Laplace-Beltrami spectrum")
         self.kernel = kernel
+        self.spectrum = spectrum
         self.length_scale = length_scale
         self.variance = variance
         self.nugget = nugget
@@ -112,8 +166,6 @@ class SurfaceGP:
         nv = np.zeros(n) if noise_var is None else np.broadcast_to(np.asarray(noise_var, float), (n,)).copy()
         self.T_, self.y_, self.noise_var_ = T, y, nv
         self.cols_ = np.unique(T.indices)
-        TJ = T[:, self.cols_].tocsr()
-        DJ = self.distance[np.ix_(self.cols_, self.cols_)]
         scale = float(np.std(y)) if n > 1 and np.std(y) > 0 else max(abs(float(np.mean(y))), 1.0)
         self.mean_variance_ = (self.mean_variance if self.mean_variance is not None
                                else (10.0 * (abs(float(np.mean(y))) + scale)) ** 2)
@@ -122,6 +174,54 @@ class SurfaceGP:
             # Below the taps' own spacing the data say nothing about the correlation, and a short length
             # scale makes every integral look certain: the lower bound is the median nearest-tap distance.
             length_bounds = (self._tap_spacing(T), 3.0 * dmax)
+        if self.kernel == "auto":
+            names = [k for k in AUTO_KERNELS if k in DISTANCE_KERNELS or self.spectrum is not None]
+        else:
+            names = [self.kernel]
+        self.candidates_ = {}
+        best = None
+        for name in names:
+            p, nll = self._fit_kernel(name, T, y, nv, scale, dmax, length_bounds)
+            self.candidates_[name] = nll
+            if best is None or (np.isfinite(nll) and not nll >= best[2]):
+                best = (name, p, nll)
+        self.kernel_, p, self.nll_ = best
+        self.length_scale_, self.variance_, self.nugget_ = p["l"], p["s2"], p["nug"]
+        self._condition()
+        return self
+
+    def _tap_corr_fn(self, name, T):
+        """Function ``l -> (R, dR/dlog l)``: tap-by-tap correlation ``T R(l) T^T`` and its derivative, (n, n)."""
+        if name in SPECTRAL_KERNELS:
+            lam, phi, area = self.spectrum
+            nu = SPECTRAL_KERNELS[name]
+            P = np.asarray(T @ phi)  # (n, k): each tap's eigenfunction values
+
+            def corr(l):
+                g = spectral_density(lam, l, nu)
+                dlog = -(l**2) * lam if np.isinf(nu) else 4.0 * nu * (nu + 1.0) / (2.0 * nu + lam * l**2)
+                gn = g * (area / g.sum())
+                dlog = dlog - (g * dlog).sum() / g.sum()  # the normalisation moves with l too
+                return (P * gn) @ P.T, (P * (gn * dlog)) @ P.T
+            return corr
+        TJ = T[:, self.cols_].tocsr()
+        DJ = self.distance[np.ix_(self.cols_, self.cols_)]
+
+        def corr(l):
+            r = DJ / l
+            if name == "exponential":
+                k, dk = np.exp(-r), None
+                dk = k * r  # d/dlog l of exp(-d/l)
+            else:
+                e = np.exp(-np.sqrt(3.0) * r)
+                k, dk = (1.0 + np.sqrt(3.0) * r) * e, 3.0 * r**2 * e
+            # sparse rows (3 weights each) times dense: cheap
+            return np.asarray(TJ @ np.asarray(TJ @ k).T), np.asarray(TJ @ np.asarray(TJ @ dk).T)
+        return corr
+
+    def _fit_kernel(self, name, T, y, nv, scale, dmax, length_bounds):
+        n = len(y)
+        corr = self._tap_corr_fn(name, T)
         fixed = {"l": self.length_scale, "s2": self.variance, "nug": self.nugget}
         # The nugget is fitted as a fraction of the field variance, at most NUGGET_MAX: left free, a field the
         # kernel cannot follow is "explained" as pure noise, and noise averages out of every integral, so the
@@ -138,15 +238,31 @@ class SurfaceGP:
                 p["nug"] = p["nug"] * p["s2"]
             return p
 
-        def nll(theta):
+        def nll_grad(theta):
+            """Negative log marginal likelihood (R&W eq. 2.30) and its gradient in the log parameters (eq. 5.9)."""
             p = unpack(theta)
-            S = self._tap_cov(TJ, DJ, p["l"], p["s2"], p["nug"], nv)
+            R, dR = corr(p["l"])
+            S = self.mean_variance_ + p["s2"] * R + np.diag(nv + p["nug"])
             try:
                 c, low = sla.cho_factor(S, lower=True, check_finite=False)
-            except np.linalg.LinAlgError:
-                return 1e25
+            except (np.linalg.LinAlgError, ValueError):
+                return 1e25, np.zeros(len(theta))
             alpha = sla.cho_solve((c, low), y, check_finite=False)
-            return float(0.5 * y @ alpha + np.log(np.diag(c)).sum() + 0.5 * n * np.log(2 * np.pi))
+            f = float(0.5 * y @ alpha + np.log(np.diag(c)).sum() + 0.5 * n * np.log(2 * np.pi))
+            Sinv = sla.cho_solve((c, low), np.eye(n), check_finite=False)
+            A = Sinv - np.outer(alpha, alpha)
+            g = []
+            for k in free:
+                if k == "l":
+                    g.append(0.5 * np.sum(A * (p["s2"] * dR)))
+                elif k == "s2":
+                    tr = np.sum(A * (p["s2"] * R))
+                    if fixed["nug"] is None:  # the nugget is a fraction of s2 and moves with it
+                        tr += p["nug"] * np.trace(A)
+                    g.append(0.5 * tr)
+                else:
+                    g.append(0.5 * p["nug"] * np.trace(A))
+            return f, np.array(g)
 
         if free and n >= 3:
             from scipy.optimize import minimize
@@ -159,20 +275,14 @@ class SurfaceGP:
                     x0.append({"l": np.log(l0) if l0 else 0.0, "s2": np.log(scale**2),
                                "nug": np.log(1e-3)}[k])
                 x0 = np.clip(x0, [bounds[k][0] for k in free], [bounds[k][1] for k in free])
-                r = minimize(nll, x0, method="L-BFGS-B", bounds=[tuple(bounds[k]) for k in free],
-                             options={"maxiter": 80})
-                self._runs = getattr(self, "_runs", []) + [(r.fun, r.nfev, r.message, np.exp(r.x))]
+                r = minimize(nll_grad, x0, jac=True, method="L-BFGS-B",
+                             bounds=[tuple(bounds[k]) for k in free], options={"maxiter": 200})
                 if best is None or r.fun < best.fun:
                     best = r
-            p = unpack(best.x)
-            self.nll_ = float(best.fun)
-        else:
-            # Too few taps to learn from: documented defaults (a fifth of the body, the data's spread).
-            p = {"l": fixed["l"] or 0.2 * dmax, "s2": fixed["s2"] or scale**2, "nug": fixed["nug"] or 1e-4 * scale**2}
-            self.nll_ = float("nan")
-        self.length_scale_, self.variance_, self.nugget_ = p["l"], p["s2"], p["nug"]
-        self._condition()
-        return self
+            return unpack(best.x), float(best.fun)
+        # Too few taps to learn from: documented defaults (a fifth of the body, the data's spread).
+        p = {"l": fixed["l"] or 0.2 * dmax, "s2": fixed["s2"] or scale**2, "nug": fixed["nug"] or 1e-4 * scale**2}
+        return p, float("nan")
 
     def _tap_spacing(self, T) -> float:
         """Median surface distance from each tap's main node to the nearest other tap's, m."""
@@ -186,43 +296,65 @@ class SurfaceGP:
         return float(np.median(nn)) if nn.size else 0.05 * float(self.distance.max())
 
     def log_marginal_likelihood(self, length_scale, variance, nugget) -> float:
-        """Log marginal likelihood of the fitted taps at the given hyperparameters."""
-        TJ = self.T_[:, self.cols_].tocsr()
-        DJ = self.distance[np.ix_(self.cols_, self.cols_)]
-        S = self._tap_cov(TJ, DJ, length_scale, variance, nugget, self.noise_var_)
+        """Log marginal likelihood of the fitted taps at the given hyperparameters (fitted kernel)."""
+        R = self._tap_corr_fn(self.kernel_, self.T_)(length_scale)[0]
+        S = self.mean_variance_ + variance * R + np.diag(self.noise_var_ + nugget)
         c = sla.cho_factor(S, lower=True)
         a = sla.cho_solve(c, self.y_)
         return float(-0.5 * self.y_ @ a - np.log(np.diag(c[0])).sum() - 0.5 * len(self.y_) * np.log(2 * np.pi))
 
-    def _tap_cov(self, TJ, DJ, l, s2, nug, nv):
-        K = self.mean_variance_ + s2 * kernel(DJ / l, self.kernel)
-        A = np.asarray(TJ @ K)  # sparse rows (3 weights each) times dense: cheap
-        return np.asarray(TJ @ A.T) + np.diag(nv + nug)
-
     def _condition(self):
-        """Carrier covariance at the fitted values, clipped to positive semi-definite."""
-        R = kernel(self.distance / self.length_scale_, self.kernel)
-        # Smallest diagonal shift (powers of ten) that lets the Cholesky factorisation through: it bounds the
-        # most negative eigenvalue and costs one factorisation per try instead of a full eigendecomposition.
+        """Prior covariance pieces at the fitted values, and the factorised tap covariance."""
         self.clipped_ = 0.0
-        for shift in [0.0] + [10.0**e for e in range(-9, 0)]:
-            try:
-                np.linalg.cholesky(R + shift * np.eye(len(R)) if shift else R)
-                break
-            except np.linalg.LinAlgError:
-                continue
-        if shift:
-            R = R + shift * np.eye(len(R))
-            self.clipped_ = shift
-        self.K_ = self.mean_variance_ + self.variance_ * R
-        TK = np.asarray(self.T_ @ self.K_)  # (n, n_c)
+        tau2, s2 = self.mean_variance_, self.variance_
+        if self.kernel_ in SPECTRAL_KERNELS:
+            lam, phi, area = self.spectrum
+            g = spectral_density(lam, self.length_scale_, SPECTRAL_KERNELS[self.kernel_])
+            self._phi, self._g = phi, s2 * g * (area / g.sum())
+            self._K = None  # built on demand: (n_c, n_c) costs n_c^3
+            P = np.asarray(self.T_ @ phi)
+            TK = tau2 + (P * self._g) @ phi.T  # rows of T sum to 1, so T (tau^2 1 1^T) = tau^2 1 1^T
+        else:
+            R = kernel(self.distance / self.length_scale_, self.kernel_)
+            # Smallest diagonal shift (powers of ten) that lets the Cholesky factorisation through: it bounds the
+            # most negative eigenvalue and costs one factorisation per try instead of a full eigendecomposition.
+            for shift in [0.0] + [10.0**e for e in range(-9, 0)]:
+                try:
+                    np.linalg.cholesky(R + shift * np.eye(len(R)) if shift else R)
+                    break
+                except np.linalg.LinAlgError:
+                    continue
+            if shift:
+                R = R + shift * np.eye(len(R))
+                self.clipped_ = shift
+            self._K = tau2 + s2 * R
+            TK = np.asarray(self.T_ @ self._K)  # (n, n_c)
         S = np.asarray(self.T_ @ TK.T) + np.diag(self.noise_var_ + self.nugget_)
         self.TK_ = TK
         self.S_cho_ = sla.cho_factor(S, lower=True)
 
+    # ------------------------------------------------------- prior pieces
+    @property
+    def K_(self) -> np.ndarray:
+        """(n_c, n_c) float: prior covariance at the nodes."""
+        self._check()
+        if self._K is None:
+            self._K = self.mean_variance_ + (self._phi * self._g) @ self._phi.T
+        return self._K
+
+    def _K_dot(self, a):
+        if self._K is not None:
+            return self._K @ a
+        return self.mean_variance_ * a.sum(axis=0, keepdims=True) + self._phi @ (self._g[:, None] * (self._phi.T @ a))
+
+    def _K_diag(self):
+        if self._K is not None:
+            return np.diag(self._K).copy()
+        return self.mean_variance_ + (self._phi**2) @ self._g
+
     # ------------------------------------------------------------ posterior
     def _check(self):
-        if not hasattr(self, "K_"):
+        if not hasattr(self, "S_cho_"):
             raise RuntimeError("SurfaceGP is not fitted; call fit(tap_matrix, y) first")
 
     def figures(self, a):
@@ -245,7 +377,7 @@ class SurfaceGP:
         a = np.asarray(a, float).reshape(self.distance.shape[0], -1)
         c = self.TK_ @ a  # (n, k)
         w = sla.cho_solve(self.S_cho_, c)
-        prior = np.einsum("ik,ik->k", a, self.K_ @ a)
+        prior = np.einsum("ik,ik->k", a, self._K_dot(a))
         var = np.maximum(prior - np.einsum("ik,ik->k", c, w), 0.0)
         return w.T @ self.y_, var, w
 
@@ -258,7 +390,7 @@ class SurfaceGP:
         """(n_c,) float: posterior variance at the nodes."""
         self._check()
         z = sla.cho_solve(self.S_cho_, self.TK_)
-        return np.maximum(np.diag(self.K_) - np.einsum("ij,ij->j", self.TK_, z), 0.0)
+        return np.maximum(self._K_diag() - np.einsum("ij,ij->j", self.TK_, z), 0.0)
 
     def posterior_cov(self) -> np.ndarray:
         """(n_c, n_c) float: posterior covariance at the nodes."""
@@ -266,5 +398,5 @@ class SurfaceGP:
         return self.K_ - self.TK_.T @ sla.cho_solve(self.S_cho_, self.TK_)
 
     def describe(self) -> str:
-        return (f"kriging ({self.kernel} on surface distance, length {self.length_scale_:.3g} m, "
+        return (f"kriging ({self.kernel_} along the surface, length {self.length_scale_:.3g} m, "
                 f"sd {np.sqrt(self.variance_):.3g}, nugget sd {np.sqrt(self.nugget_):.3g})")

@@ -149,7 +149,7 @@ def greedy_plan(cov, a, n_add, *, candidates, blocked_from=(), distance=None, mi
 
 def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrier=None, n_patches=2500,
               q=None, ref_area=None, boxes=(), excluded_faces=None, min_spacing=0.05, length_scale=None,
-              kernel="exponential", progress=None) -> Plan:
+              kernel="auto", progress=None) -> Plan:
     """Propose ``n_add`` tap positions that cut the chosen figures' uncertainty most.
 
     Parameters
@@ -169,6 +169,9 @@ def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrie
         Smallest distance along the surface between taps, m.
     length_scale : float, optional
         Kriging length scale, m, when it cannot be fitted (or to force one).
+    kernel : str
+        Kriging kernel (:class:`~meshpress.kriging.SurfaceGP`); without three
+        taps to fit it, the exponential kernel (the most cautious) is used.
 
     Returns
     -------
@@ -197,7 +200,8 @@ def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrie
     a = carrier.fine_weights(G)
     n_taps = 0 if taps is None else len(taps)
     if n_taps >= 3:
-        gp = SurfaceGP(carrier.distance, kernel=kernel, length_scale=length_scale)
+        spectrum = carrier.spectrum() if kernel == "auto" or kernel.startswith("lb-") else None
+        gp = SurfaceGP(carrier.distance, kernel=kernel, spectrum=spectrum, length_scale=length_scale)
         gp.fit(carrier.points_matrix(taps.points), taps.values)
         cov = gp.posterior_cov()
         noise = gp.nugget_
@@ -206,7 +210,8 @@ def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrie
         from .kriging import kernel as kfun
 
         ell = length_scale or 0.2 * float(carrier.distance.max())
-        cov = 1.0 + kfun(carrier.distance / ell, kernel)  # unit variance, constant-mean prior of 1
+        name = kernel if kernel in ("exponential", "matern32") else "exponential"
+        cov = 1.0 + kfun(carrier.distance / ell, name)  # unit variance, constant-mean prior of 1
         noise = 1e-4
         blocked = carrier.nearest_vertex(taps.points) if n_taps else np.zeros(0, np.int64)
         if n_taps:

@@ -367,7 +367,7 @@ def report_numbers(result: UncertaintyResult, figure: str = "CL") -> dict:
 
 
 def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | None = None, carrier=None,
-                        n_patches: int = 2500, field=None, kernel: str = "exponential", length_scale=None,
+                        n_patches: int = 2500, field=None, kernel: str = "auto", length_scale=None,
                         progress=None) -> UncertaintyResult:
     """Kriging estimate and band of every figure.
 
@@ -410,7 +410,8 @@ def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | Non
         carrier = Carrier(body, n_patches, progress=progress)
     a = carrier.fine_weights(G)
     T = carrier.points_matrix(taps.points)
-    gp = SurfaceGP(carrier.distance, kernel=kernel, length_scale=length_scale)
+    spectrum = carrier.spectrum() if kernel == "auto" or kernel.startswith("lb-") else None
+    gp = SurfaceGP(carrier.distance, kernel=kernel, spectrum=spectrum, length_scale=length_scale)
     gp.fit(T, taps.values, meas.tap_u**2)
     mean, var, Wk = gp.figures(a)
     closure = G.sum(axis=0)

@@ -182,8 +182,9 @@ def test_band_covers_sphere_truth_and_reports(sphere):
     res = compute_uncertainty(sphere, taps, ref_area=np.pi, field=make_field("rbf").fit(sphere, taps))
     for k, n in enumerate(names):
         b = res.band(n)
-        # Sphere in potential flow: zero force (d'Alembert) -- every figure should be inside its band.
-        assert b.lo95 <= truth[k] <= b.hi95, n
+        # Sphere in potential flow: zero force (d'Alembert) -- every figure should be inside its band (to round-off:
+        # with exact readings a smooth kernel can make the band of a figure that is zero by symmetry ~1e-9 wide).
+        assert b.lo95 - 1e-6 <= truth[k] <= b.hi95 + 1e-6, n
     d = res.to_dict()
     assert {"CL", "CL_u", "CL_lo95", "CL_hi95", "uncertainty_budget"} <= set(d)
     hook = report_numbers(res, "CL")

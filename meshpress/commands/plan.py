@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from .uncertainty import KRIGING_KERNELS
 from .options import add_body_options, add_flow_options, speed_mps, load_inputs
 
 PLAN_FIGURES = ("CL", "CD", "CS", "CLF", "CLR", "CPM")
@@ -29,6 +30,8 @@ def add_parser(sub):
     p.add_argument("--length-scale", default=None, metavar="L",
                    help="kriging length scale when it cannot be fitted (fewer than 3 taps), e.g. '0.8 m'")
     p.add_argument("--patches", type=int, default=2500, metavar="N", help="carrier patches (default 2500)")
+    p.add_argument("--kernel-gp", default="auto", choices=("auto",) + KRIGING_KERNELS,
+                   help="kriging correlation along the surface (default auto; see meshpress uncertainty --help)")
     p.add_argument("--out", default="planned_taps.csv", help="CSV of the new taps, mesh coordinates and unit "
                                                              "(default planned_taps.csv)")
     p.add_argument("--picture", metavar="PNG", help="write a picture of the plan")
@@ -106,7 +109,7 @@ def run(args) -> int:
     plan = plan_taps(body, taps, figures=figures, n_add=args.add, n_patches=args.patches,
                      boxes=_boxes(args.exclude_box, body), excluded_faces=_faces(args.exclude_faces, body),
                      min_spacing=spacing, length_scale=ell, q=resolve_q(args.q, speed_mps(args.speed), args.air_density),
-                     ref_area=args.ref_area, progress=progress)
+                     ref_area=args.ref_area, kernel=args.kernel_gp, progress=progress)
     pts = body.frame.to_mesh(plan.points) if body.frame else plan.points
     existing = set(taps.names) if taps is not None else set()
     names, k = [], 1

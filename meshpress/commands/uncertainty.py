@@ -7,6 +7,10 @@ the bands (meshpress.uncertainty, meshpress.kriging).
 
 from __future__ import annotations
 
+# Literal copy of meshpress.kriging.KERNELS (importing it would load scipy just to print --help; a test
+# keeps the two equal).
+KRIGING_KERNELS = ("exponential", "matern32", "lb-matern12", "lb-matern32", "lb-matern52", "lb-heat")
+
 from .options import add_body_options, add_field_options, add_flow_options, method_settings, speed_mps, load_inputs
 
 U_COLUMNS = ("u", "p_u", "cp_u", "sem", "p_sem", "cp_sem")
@@ -37,8 +41,9 @@ def add_parser(sub):
                    help="standard uncertainty of the reference pressure, taps' unit")
     g.add_argument("--patches", type=int, default=2500, metavar="N", help="carrier patches for the covariance "
                                                                         "(default 2500)")
-    g.add_argument("--kernel-gp", default="exponential", choices=("exponential", "matern32"),
-                   help="kriging correlation on surface distance (default exponential)")
+    g.add_argument("--kernel-gp", default="auto", choices=("auto",) + KRIGING_KERNELS,
+                   help="kriging correlation along the surface (default auto: the best marginal likelihood among "
+                        "exponential and the Laplace-Beltrami Matérn 1/2, 3/2, 5/2 and heat kernels)")
     p.add_argument("--json", metavar="OUT", help="write the result (loads + 'uncertainty' object) as JSON")
     p.add_argument("--quiet", action="store_true", help="no progress display")
     p.set_defaults(run=run)
