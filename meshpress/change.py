@@ -123,6 +123,11 @@ class ChangeResult:
     n_taps : int
     correlation : float
     assumptions, notes : list of str
+    tap_weights : (n, k) float
+        Kriging weights of the change: ``change = tap_weights[:, k] @ (y_other - y_base)``.
+    difference : UncertaintyResult
+        The kriging model of the difference field itself (its ``importance``
+        map shows where unknown change matters most).
     """
 
     bands: list
@@ -137,6 +142,7 @@ class ChangeResult:
     assumptions: list = field(default_factory=list)
     notes: list = field(default_factory=list)
     tap_weights: np.ndarray | None = None
+    difference: object = None
 
     def band(self, name) -> Band:
         for b in self.bands:
@@ -162,7 +168,9 @@ class ChangeResult:
                             "field_value": b.field_value,
                             "other_value": None if bo is None else bo.value, "other_u": None if bo is None else bo.u,
                             "base_value": None if bb is None else bb.value, "base_u": None if bb is None else bb.u,
-                            "resolved": bool(abs(b.value) > K95 * b.u)}
+                            "resolved": bool(abs(b.value) > K95 * b.u),
+                            "method_gap_over_u": None if b.field_value is None else abs(b.field_value - b.value) / b.u,
+                            "flagged": _flagged(b)}
         return {"base": self.base_label, "other": self.other_label, "meaning": "other minus base", "taps": self.n_taps,
                 "figures": figs, "model": self.model, "error_correlation": self.correlation,
                 "coverage": "95 % interval = change +/- 1.96 u (normal)", "assumptions": list(self.assumptions),
@@ -276,10 +284,18 @@ def compute_change(body, taps, y_base, y_other, *, err_base: ErrorSources, err_o
         fv = None if fchange is None else float(fchange[k])
         bands.append(Band(name, b.value, float(np.sqrt(vm + vs + vq)), float(np.sqrt(vm)), float(b.u_sampling),
                           float(np.sqrt(vq)), fv))
-    res = ChangeResult(bands, base_result, other_result, list(dres.names), dres.model, base_label, other_label, n,
-                       rho, assumptions_text(rho), list(dres.notes), W)
-    res.difference = dres
-    return res
+    notes = list(dres.notes)
+    gap = [b.name for b in bands if _flagged(b)]
+    if gap:
+        notes.append(f"the field method's change lies outside the 95 % interval for {', '.join(gap)}: the band "
+                     "may be too narrow there (a change concentrated where few taps are; docs/uncertainty.md)")
+    return ChangeResult(bands, base_result, other_result, list(dres.names), dres.model, base_label, other_label, n,
+                        rho, assumptions_text(rho), notes, W, dres)
+
+
+def _flagged(b) -> bool:
+    """True when the field method's change lies outside the estimate's 95 % interval (a sign of the method spread)."""
+    return b.field_value is not None and not (b.lo95 <= b.field_value <= b.hi95)
 
 
 def _q_scaled(names, kind):

@@ -205,3 +205,17 @@ def test_cli_baseline_with_other_taps_is_one_line(sphere_files, capsys):
     assert "2 taps in one file only were left out" in capsys.readouterr().out
     assert main(args + ["--error-correlation", "2"]) == 2
     assert "--error-correlation must be between 0 and 1" in capsys.readouterr().err
+
+
+def test_a_field_change_far_from_the_estimate_is_flagged(case):
+    # The field method's change is given beside the estimate; when it lies outside the 95 % interval the band is
+    # suspect (a sign of the method spread), and the notes say so.
+    body, taps, yb, yo, eb, eo, rho, ch = case
+    kw = dict(err_base=eb, err_other=eo, correlation=rho, ref_area=np.pi, carrier=ch.difference.carrier,
+              base_result=ch.base, other_result=ch.other)
+    z = body.centroids[:, 2]
+    near = compute_change(body, taps, yb, yo, field_change=C * z, **kw)
+    assert not any("outside the 95 % interval" in n for n in near.notes)
+    assert near.to_dict()["figures"]["CL"]["method_gap_over_u"] < K95 and not near.to_dict()["figures"]["CL"]["flagged"]
+    far = compute_change(body, taps, yb, yo, field_change=3 * C * z, **kw)
+    assert any("lies outside the 95 % interval for CL" in n for n in far.notes)

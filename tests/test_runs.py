@@ -438,3 +438,21 @@ def test_sheet_uncertainty_mistakes(tmp_path, capsys):
         assert main(["run", str(path), "--quiet", "--out", str(tmp_path / "o")]) == 2
         err = capsys.readouterr().err
         assert text in err and len(err.strip().splitlines()) == 1, err
+
+
+@pytest.mark.slow
+def test_invented_example_change_band_is_narrower_than_a_configurations():
+    # What the same 57 taps miss of the (invented) field is common to both configurations: the change's band
+    # must come out well below either configuration's own (docs/uncertainty.md measures how far, and where the
+    # change's band is too narrow).
+    root = Path(__file__).resolve().parent.parent
+    res = process_sheet(read_sheet(root / "examples" / "sports_car_wing" / "test.toml"), bands=True)
+    ch = res.changes[0]
+    for k in ("CL", "CLF", "CLR", "CD"):
+        own = min(c.bands.band(k).u for c in res.configurations.values())
+        assert ch.band(k).u < 0.5 * own, k
+    # The example's logs (scripts/make_example.py) have a tap noise of 3 Pa at 10 Hz, about 600 samples per
+    # window and q of 533-813 Pa: each run's standard error of the mean Cp is of order 3 / q / sqrt(600), about
+    # 1.7e-4 to 2.6e-4, and the mean of two runs about 1.6e-4 before the zeros' standard errors are added.
+    u = res.configurations["baseline"].errors.random_u
+    assert 2e-5 < np.median(u) < 1e-3

@@ -107,6 +107,7 @@ def format_diff(d) -> str:
             lines.append(f"    {k:<5}{b['value']:+.3f} +/- {b['u']:.3f}   [{b['lo95']:+.3f}, {b['hi95']:+.3f}]"
                          f"   ({'resolved' if b['resolved'] else 'not resolved'} from zero; u of {d['other']} "
                          f"alone {b['other_u']:.3f})")
+        lines += [f"    note: {n}" for n in ch.get("notes", []) if not n.startswith("covariance on")]
     return "\n".join(lines)
 
 

@@ -166,6 +166,7 @@ def format_bands_summary(result) -> list:
     for ch in result.changes:
         out.append(f"\n  {ch.other_label} vs {ch.base_label}:")
         out += [f"    {ch.sentence(k)}" for k in figs if get(ch, k) is not None]
+        out += [f"    note: {n}" for n in ch.notes if not n.startswith("covariance on")]
         wide = [k for k in figs if get(ch, k) is not None and get(ch.other, k) is not None
                 and ch.band(k).u > 0.5 * ch.other.band(k).u]
         if wide:
