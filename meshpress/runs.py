@@ -9,6 +9,13 @@ averaging their loads.
 Hook for the report: :func:`configuration_results` returns the per-
 configuration results (each with its :class:`LoadResult`, per-face Cp and the
 runs behind it); :attr:`TestResult.body` is the loaded body.
+
+With bands (``[uncertainty] bands = true`` or ``process_sheet(..., bands=True)``)
+every configuration also gets its figures with a standard uncertainty from a
+kriging model along the surface (:func:`meshpress.uncertainty.compute_uncertainty`),
+each tap's measurement uncertainty being the standard error of its mean over
+the runs' steady windows, and every comparison the band of its change
+(:func:`meshpress.change.compute_change`).
 """
 
 from __future__ import annotations
@@ -76,6 +83,21 @@ class RunReading:
     rho: float
     zero_Pa: np.ndarray | None
     notes: list = field(default_factory=list)
+    #: (k,) float: standard error of each tap's zero (mean at rest), Pa; None without a zero file.
+    zero_se_Pa: np.ndarray | None = None
+
+    def tap_u(self) -> np.ndarray:
+        """(k,) float: standard uncertainty of each tap's mean Cp from the readings' spread.
+
+        The standard error of the window's mean with the lag-1 autocorrelation
+        accounted for (:func:`~meshpress.readings.tap_statistics`), combined in
+        quadrature with the zero's standard error over q.  Zero where a run has
+        a single sample (no spread to estimate it from).
+        """
+        se = np.nan_to_num(np.asarray(self.cp_stats.se_ar1, float), nan=0.0)
+        if self.zero_se_Pa is not None:
+            se = np.sqrt(se**2 + (np.nan_to_num(self.zero_se_Pa, nan=0.0) / self.q_Pa) ** 2)
+        return se
 
 
 @dataclass
@@ -116,10 +138,16 @@ class ConfigurationResult:
     rho: float
     speeds: dict | None = None
     warnings: list = field(default_factory=list)
+    #: UncertaintyResult of the mean Cp (with bands), else None.
+    bands: object = None
+    #: ErrorSources of the mean Cp per tap (with bands), else None.
+    errors: object = None
 
 
 @dataclass
 class TestResult:
+    """A processed sheet.  ``changes`` holds a ChangeResult per comparison (with bands; else empty)."""
+
     sheet: Sheet
     body: object
     taps: object
@@ -127,6 +155,8 @@ class TestResult:
     configurations: dict
     comparisons: list
     warnings: list = field(default_factory=list)
+    changes: list = field(default_factory=list)
+    bands_seconds: float | None = None
 
 
 def face_values(load: LoadResult) -> np.ndarray | None:
@@ -175,8 +205,11 @@ def reduce_run(run: Run, series: Series, rho: float, zero: Series | None = None)
     notes = []
     n_total = len(series)
     zero_p = zq = zr = None
+    zero_se = None
     if zero is not None:
         zero_p = zero.p.mean(axis=0)
+        if len(zero) > 1:
+            zero_se = tap_statistics(zero.p).se_ar1
         zq = None if zero.q is None else float(zero.q.mean())
         zr = None if zero.ref is None else float(zero.ref.mean())
     # Per-sample dynamic pressure.
@@ -229,7 +262,8 @@ def reduce_run(run: Run, series: Series, rho: float, zero: Series | None = None)
         notes.append("no zero readings: offsets at rest not removed")
     return RunReading(cp=cps.mean, cp_stats=cps, p_stats=ps, q_Pa=float(q.mean()),
                       q_std_Pa=float(q.std(ddof=1)) if len(q) > 1 else 0.0, window_s=win, samples=int(mask.sum()),
-                      samples_total=n_total, cp_ref=float(np.mean(cp_ref)), rho=rho, zero_Pa=zero_p, notes=notes)
+                      samples_total=n_total, cp_ref=float(np.mean(cp_ref)), rho=rho, zero_Pa=zero_p, notes=notes,
+                      zero_se_Pa=zero_se)
 
 
 def _read_run(run: Run, names, exclude=()) -> tuple[Series, Series | None]:
@@ -253,8 +287,16 @@ def _read_run(run: Run, names, exclude=()) -> tuple[Series, Series | None]:
     return series, zero
 
 
-def process_sheet(sheet: Sheet, progress: Progress | None = None) -> TestResult:
+def process_sheet(sheet: Sheet, progress: Progress | None = None, *, bands: bool | None = None) -> TestResult:
     """Run a whole test sheet.
+
+    Parameters
+    ----------
+    sheet : Sheet
+    progress : Progress, optional
+    bands : bool, optional
+        Compute the bands of every configuration and comparison; default the
+        sheet's ``[uncertainty] bands``.
 
     Returns
     -------
@@ -339,7 +381,80 @@ def process_sheet(sheet: Sheet, progress: Progress | None = None) -> TestResult:
         face_values(load)
         configs[name] = ConfigurationResult(name, members, cp, np.ptp(cps, axis=0), load, spread, rho, sp, warnings)
     comparisons = [compare_configurations(configs[a], configs[b], names) for a, b in sheet.compare]
-    return TestResult(sheet, body, taps, runs, configs, comparisons, list(air_notes))
+    result = TestResult(sheet, body, taps, runs, configs, comparisons, list(air_notes))
+    if sheet.bands.enabled if bands is None else bands:
+        add_bands(result, progress)
+    return result
+
+
+def configuration_errors(members, sensor_u_Pa: float = 0.0):
+    """The measurement errors of a configuration's mean Cp per tap.
+
+    Parameters
+    ----------
+    members : list of RunResult
+        The configuration's runs (averaged with equal weights).
+    sensor_u_Pa : float
+        Standard uncertainty of each sensor, Pa.
+
+    Returns
+    -------
+    ErrorSources
+        Random part ``sqrt(sum_r u_r^2) / R`` (the runs' standard errors are
+        independent: variance of a mean of independent means); systematic part
+        ``u_sensor x mean_r(1/q_r)``: the same sensor served every run, so its
+        error is common to them and averaging does not reduce it.
+    """
+    from .change import ErrorSources
+
+    u = np.array([m.reading.tap_u() for m in members])
+    rand = np.sqrt((u**2).sum(axis=0)) / len(members)
+    sys_u = sensor_u_Pa * float(np.mean([1.0 / m.reading.q_Pa for m in members]))
+    return ErrorSources.build(u.shape[1], random_u=rand, systematic_u=sys_u)
+
+
+def add_bands(result: TestResult, progress: Progress | None = None) -> TestResult:
+    """Bands of every configuration's figures and of every comparison's change (in place).
+
+    One carrier (covariance patches) serves every fit.  Sets
+    :attr:`ConfigurationResult.bands` and ``errors``, ``result.changes`` and a
+    ``change`` object in every comparison dict, and ``result.bands_seconds``.
+    """
+    import time
+
+    from .change import compute_change
+    from .patches import Carrier
+    from .uncertainty import compute_uncertainty
+
+    progress = progress or Progress(enabled=False)
+    t0 = time.perf_counter()
+    st = result.sheet.bands
+    body, taps = result.body, result.taps
+    with progress.step("covariance patches"):
+        carrier = Carrier(body, st.patches, progress=progress)
+    for name, c in result.configurations.items():
+        c.errors = configuration_errors(c.runs, st.sensor_u_Pa)
+        with progress.step(f"bands of {name}"):
+            c.bands = compute_uncertainty(body, taps.with_values(c.cp), q=c.load.q_Pa, ref_area=c.load.ref_area_m2,
+                                          meas=c.errors.measurement(), carrier=carrier, field=c.load.field,
+                                          kernel=st.kernel, progress=progress)
+        if any(r.reading.samples < 2 for r in c.runs):
+            c.bands.notes.append("a run has a single sample: its readings' spread is unknown and taken as zero")
+    result.changes = []
+    for d in result.comparisons:
+        a, b = result.configurations[d["base"]], result.configurations[d["other"]]
+        fa, fb = face_values(a.load), face_values(b.load)
+        with progress.step(f"band of {b.name} vs {a.name}"):
+            # q differs between configurations, so only the coefficients' change is a linear figure (q=None).
+            ch = compute_change(body, taps, a.cp, b.cp, err_base=a.errors, err_other=b.errors,
+                                correlation=st.error_correlation, q=None, ref_area=a.load.ref_area_m2,
+                                carrier=carrier, kernel=st.kernel, base_result=a.bands, other_result=b.bands,
+                                field_change=None if fa is None or fb is None else np.asarray(fb) - np.asarray(fa),
+                                base_label=a.name, other_label=b.name, progress=progress)
+        result.changes.append(ch)
+        d["change"] = ch.to_dict()
+    result.bands_seconds = time.perf_counter() - t0
+    return result
 
 
 def wind_from_pair(members) -> float | None:
@@ -423,18 +538,48 @@ def run_to_dict(r: RunResult) -> dict:
 
 def configuration_to_dict(c: ConfigurationResult) -> dict:
     d = c.load.to_dict()
+    tap_cp = [{"name": n, "cp": float(x), "spread": float(s)}
+              for n, x, s in zip([t["name"] for t in c.load.taps], c.cp, c.cp_spread)]
+    if c.errors is not None:
+        for t, r, s in zip(tap_cp, c.errors.random_u, c.errors.systematic_u):
+            t.update(u_random=float(r), u_systematic=float(s))
     d["configuration"] = {
         "name": c.name, "runs": [r.run.name for r in c.runs], "spread_between_runs": c.spread,
         "air_density_kg_m3": c.rho,
-        "tap_cp": [{"name": n, "cp": float(x), "spread": float(s)}
-                   for n, x, s in zip([t["name"] for t in c.load.taps], c.cp, c.cp_spread)],
+        "tap_cp": tap_cp,
         "references": sorted({r.run.reference.describe() for r in c.runs}),
         "warnings": c.warnings,
     }
     if c.speeds:
         d["speeds"] = {k: np.asarray(v).tolist() for k, v in c.speeds.items()}
         d["speeds_caution"] = SPEED_CAUTION
+    if c.bands is not None:
+        d["uncertainty"] = c.bands.to_dict()
     return d
+
+
+BANDS_COLUMNS = ("item", "base", "other", "figure", "value", "u", "lo95", "hi95", "measurement_u", "sampling_u",
+                 "field_value")
+
+
+def bands_csv(result: TestResult) -> str:
+    """One row per configuration figure and per change figure (kriging estimate, u, 95 % interval, budget)."""
+    import csv
+    import io
+
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    w.writerow(BANDS_COLUMNS)
+    fmt = (lambda x: "" if x is None else (f"{x:.6g}" if isinstance(x, float) else x))
+    for name, c in result.configurations.items():
+        for b in c.bands.bands:
+            w.writerow([fmt(x) for x in ("configuration", "", name, b.name, b.value, b.u, b.lo95, b.hi95,
+                                         b.u_measurement, b.u_sampling, b.field_value)])
+    for ch in result.changes:
+        for b in ch.bands:
+            w.writerow([fmt(x) for x in ("change", ch.base_label, ch.other_label, b.name, b.value, b.u, b.lo95,
+                                         b.hi95, b.u_measurement, b.u_sampling, b.field_value)])
+    return buf.getvalue()
 
 
 SUMMARY_COLUMNS = ("run", "configuration", "direction", "window_start_s", "window_end_s", "samples", "q_Pa",

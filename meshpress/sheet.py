@@ -29,7 +29,8 @@ RUN_KEYS = {
 }
 #: Keys of [defaults]: every run key that makes sense for several runs at once.
 DEFAULT_KEYS = RUN_KEYS - {"name", "configuration", "readings", "zero", "direction", "notes"}
-TOP_KEYS = {"title", "notes", "vehicle", "taps", "air", "field", "defaults", "runs", "speeds", "compare"}
+TOP_KEYS = {"title", "notes", "vehicle", "taps", "air", "field", "defaults", "runs", "speeds", "compare",
+            "uncertainty"}
 VEHICLE_KEYS = {"mesh", "length_unit", "up", "forward", "front_axle", "rear_axle", "ground", "reference_area_m2",
                 "static_load"}
 STATIC_KEYS = {"unit", "front_left", "front_right", "rear_left", "rear_right", "front_axle", "rear_axle"}
@@ -38,8 +39,10 @@ AIR_KEYS = {"temperature_C", "pressure", "humidity_percent", "co2_ppm"}
 FIELD_KEYS = {"method", "kernel", "smoothing"}
 SPEEDS_KEYS = {"from", "to", "step"}
 COMPARE_KEYS = {"base", "other"}
+UNCERTAINTY_KEYS = {"bands", "patches", "kernel", "sensor_accuracy", "full_scale", "error_correlation"}
 REFERENCE_KEYS = {"port", "cp", "column"}
 FORMATS = ("auto", "wide", "long")
+GP_KERNELS = ("exponential", "matern32")  # the kriging correlations (as 'meshpress uncertainty --kernel-gp')
 
 
 @dataclass(frozen=True)
@@ -88,6 +91,32 @@ class Air:
     def describe(self) -> str:
         return (f"{self.temperature_C:g} degC, {self.pressure_Pa / 100:g} hPa, {self.humidity_percent:g} % RH, "
                 f"{self.co2_ppm:g} ppm CO2")
+
+
+@dataclass(frozen=True)
+class BandSettings:
+    """The ``[uncertainty]`` table: bands on every configuration's figures and on the changes.
+
+    Attributes
+    ----------
+    enabled : bool
+        Compute the bands (``bands = true``, or ``meshpress run --bands``).
+    patches : int
+        Carrier patches for the covariance.
+    kernel : str
+        Kriging correlation on surface distance.
+    sensor_u_Pa : float
+        Standard uncertainty of each tap sensor, Pa (the stated accuracy read
+        as a rectangular bound, GUM 4.3.7); systematic: the same in every run.
+    error_correlation : float
+        Correlation of the systematic errors between configurations (0 to 1).
+    """
+
+    enabled: bool = False
+    patches: int = 2500
+    kernel: str = "exponential"
+    sensor_u_Pa: float = 0.0
+    error_correlation: float = 1.0
 
 
 @dataclass(frozen=True)
@@ -169,6 +198,7 @@ class Sheet:
     speed_unit: str = "km/h"
     compare: list = field(default_factory=list)
     notes: str = ""
+    bands: BandSettings = BandSettings()
 
     @property
     def configurations(self) -> list:
@@ -288,9 +318,10 @@ def read_sheet(path) -> Sheet:
     title = doc.get("title", path.stem)
     if not isinstance(title, str):
         raise cx.err("title", "must be a string")
+    bands = _bands(cx, _table(cx, doc, "uncertainty"))
     return Sheet(path=path, title=title, vehicle=vehicle, layout=layout, air=air, runs=runs, max_tap_distance_m=max_d,
                  exclude=tuple(exclude), method=method, method_settings=settings, speeds_mps=speeds,
-                 speed_unit=speed_unit, compare=compare, notes=str(doc.get("notes", "")))
+                 speed_unit=speed_unit, compare=compare, notes=str(doc.get("notes", "")), bands=bands)
 
 
 # -- pieces ----------------------------------------------------------------------------------------
@@ -467,6 +498,46 @@ def _field(cx, d):
             raise cx.err("field.kernel", f"{kernel!r} is not one of: {', '.join(KERNELS)}")
         settings = {"kernel": kernel, "smoothing": _number(cx, d, "smoothing", "field", default=0.0, nonneg=True)}
     return method, settings
+
+
+def _bands(cx, d) -> BandSettings:
+    where = "uncertainty"
+    _check_keys(cx, d, UNCERTAINTY_KEYS, where)
+    enabled = d.get("bands", False)
+    if not isinstance(enabled, bool):
+        raise cx.err(f"{where}.bands", f"{enabled!r} must be true or false")
+    patches = d.get("patches", 2500)
+    if isinstance(patches, bool) or not isinstance(patches, int) or patches < 50:
+        raise cx.err(f"{where}.patches", f"{patches!r} must be a whole number >= 50")
+    kernel = _string(cx, d, "kernel", where, default="exponential")
+    if kernel not in GP_KERNELS:
+        raise cx.err(f"{where}.kernel", f"{kernel!r} is not one of: {', '.join(GP_KERNELS)}")
+    sensor = 0.0
+    if "sensor_accuracy" in d:
+        key = f"{where}.sensor_accuracy"
+        v = d["sensor_accuracy"]
+        if isinstance(v, str) and v.strip().endswith("%"):
+            try:
+                pct = float(v.strip()[:-1])
+            except ValueError:
+                raise cx.err(key, f"{v!r} is not a percentage like '0.25 %'") from None
+            if "full_scale" not in d:
+                raise cx.err(key, "a percentage needs uncertainty.full_scale (the sensors' range, e.g. '2500 Pa')")
+            fs = _pressure_Pa(cx, d["full_scale"], f"{where}.full_scale")
+            if not fs > 0:
+                raise cx.err(f"{where}.full_scale", "must be positive")
+            a = pct / 100.0 * fs
+        else:
+            a = _pressure_Pa(cx, v, key)
+        if not a >= 0:
+            raise cx.err(key, "must not be negative")
+        sensor = a / math.sqrt(3.0)  # a stated bound +/- a read as a rectangular distribution (GUM 4.3.7)
+    elif "full_scale" in d:
+        raise cx.err(f"{where}.full_scale", "only used with sensor_accuracy in %")
+    rho = _number(cx, d, "error_correlation", where, default=1.0)
+    if not 0.0 <= rho <= 1.0:
+        raise cx.err(f"{where}.error_correlation", "must be between 0 and 1")
+    return BandSettings(enabled, int(patches), kernel, sensor, rho)
 
 
 def _speeds(cx, d):

@@ -18,6 +18,10 @@ class Tolerances:
         dropped as degenerate.
     max_tap_distance_m : float
         Default largest allowed distance (m) from a tap to the surface.
+    same_tap_m : float
+        Two tap files' taps of one name are the same tap when their given
+        positions agree within this (m); a change between configurations
+        needs the same positions.
     frontal_resolution_m : float
         Default pixel size (m) of the raster used for the frontal area.
     coplanar_rel : float
@@ -35,6 +39,7 @@ class Tolerances:
     merge_digits: int = 6
     degenerate_area_rel: float = 1e-10
     max_tap_distance_m: float = 0.025
+    same_tap_m: float = 0.001
     frontal_resolution_m: float = 0.005
     coplanar_rel: float = 1e-6
     closure_warn: float = 1e-3

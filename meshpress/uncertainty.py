@@ -81,8 +81,8 @@ def figure_face_weights(body, *, kind: str = "cp", q: float | None = None, ref_a
             cols.append(base[nme] * to_newton)
         else:
             src = coef[nme]
-            if src not in base or to_coef is None:
-                continue
+            if src not in base or to_coef is None or (nme == "CPM" and not wheelbase):
+                continue  # CPM's reference length is the wheelbase: none without axles
             w = base[src] * to_coef / ref_area
             if nme == "CPM":
                 w = w / wheelbase

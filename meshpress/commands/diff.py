@@ -16,6 +16,9 @@ def add_parser(sub):
     p.add_argument("base", help="base: result JSON file, or configuration name with --sheet")
     p.add_argument("other", help="other: result JSON file, or configuration name with --sheet")
     p.add_argument("--sheet", metavar="SHEET", help="test sheet whose configurations BASE and OTHER are compared")
+    p.add_argument("--bands", action="store_true",
+                   help="with --sheet: the change's standard uncertainty and 95 %% interval (kriging of the "
+                        "tap-by-tap difference; as [uncertainty] bands = true)")
     p.add_argument("--json", metavar="OUT", help="write the comparison as JSON (per-face change beside it as .npy)")
     p.add_argument("--quiet", action="store_true", help="no progress display")
     p.set_defaults(run=run)
@@ -94,6 +97,17 @@ def format_diff(d) -> str:
         f = d["faces"]
         lines.append(f"\n  per face ({f['count']:,}): change in Cp from {f['min_delta_cp']:+.3f} to "
                      f"{f['max_delta_cp']:+.3f}, mean |change| {f['mean_abs_delta_cp']:.3f}")
+    ch = d.get("change")
+    if ch:
+        lines += ["", "  change with its band (kriging of the tap-by-tap difference; 95 % = change +/- 1.96 u):"]
+        for k in ("CL", "CD", "CLF", "CLR"):
+            b = ch["figures"].get(k)
+            if b is None:
+                continue
+            lines.append(f"    {k:<5}{b['value']:+.3f} +/- {b['u']:.3f}   [{b['lo95']:+.3f}, {b['hi95']:+.3f}]"
+                         f"   ({'resolved' if b['resolved'] else 'not resolved'} from zero; u of {d['other']} "
+                         f"alone {b['other_u']:.3f})")
+        lines += [f"    note: {n}" for n in ch.get("notes", []) if not n.startswith("covariance on")]
     return "\n".join(lines)
 
 
@@ -111,10 +125,13 @@ def run(args) -> int:
                 raise InputError(f"{k} {n!r} is not a configuration of {sheet.path.name} "
                                  f"({', '.join(sheet.configurations)})")
         sheet.compare = [(args.base, args.other)]
-        result = process_sheet(sheet, Progress(enabled=False if args.quiet else None))
+        result = process_sheet(sheet, Progress(enabled=False if args.quiet else None),
+                               bands=True if args.bands else None)
         d = result.comparisons[0]
         inputs = sheet.input_files()
     else:
+        if args.bands:
+            raise InputError("--bands needs --sheet (the band of a change is computed from the runs' taps)")
         d = compare_files(args.base, args.other)
         inputs = [args.base, args.other]
     print(format_diff(d))

@@ -15,6 +15,10 @@ def add_parser(sub):
     p.add_argument("sheet", help="test sheet, TOML")
     p.add_argument("--out", metavar="DIR", help="results folder (default: SHEET-results next to the sheet)")
     p.add_argument("--no-plot", action="store_true", help="do not draw speeds.png (no matplotlib needed)")
+    p.add_argument("--bands", action="store_true",
+                   help="give every configuration's figures and every comparison's change with a standard "
+                        "uncertainty and a 95 %% interval (kriging along the surface, per-tap standard errors; "
+                        "adds some seconds; same as [uncertainty] bands = true)")
     p.add_argument("--quiet", action="store_true", help="no progress display")
     p.set_defaults(run=run)
     return p
@@ -32,7 +36,7 @@ def result_files(result, *, plot=True) -> dict:
     """Relative path -> content of every output file of a test."""
     from .. import __version__
     from ..results import CAUTION, _clean
-    from ..runs import _safe, configuration_to_dict, run_to_dict, speed_csv, summary_csv
+    from ..runs import _safe, bands_csv, configuration_to_dict, run_to_dict, speed_csv, summary_csv
     from ..speed import plot_speed_tables
 
     dump = (lambda d: json.dumps(_clean(d), indent=2) + "\n")
@@ -53,14 +57,20 @@ def result_files(result, *, plot=True) -> dict:
             files[stem + ".faces.npy"] = _npy(faces)
             d["face_delta_cp_file"] = Path(stem).name + ".faces.npy"
         files[stem + ".json"] = dump(d)
+    if result.changes or any(c.bands is not None for c in result.configurations.values()):
+        files["bands.csv"] = bands_csv(result)
     if plot and tables:
         files["speeds.png"] = (lambda path: plot_speed_tables(tables, path, unit=result.sheet.speed_unit,
                                                               title=result.sheet.title,
                                                               static=result.sheet.vehicle.static_load))
-    files["test.json"] = dump({"title": result.sheet.title, "sheet": str(result.sheet.path),
-                               "air": result.sheet.air.describe(), "notes": result.warnings,
-                               "configurations": list(result.configurations), "caution": CAUTION,
-                               "meshpress": __version__})
+    test = {"title": result.sheet.title, "sheet": str(result.sheet.path), "air": result.sheet.air.describe(),
+            "notes": result.warnings, "configurations": list(result.configurations), "caution": CAUTION,
+            "meshpress": __version__}
+    if result.bands_seconds is not None:
+        st = result.sheet.bands
+        test["bands"] = {"patches": st.patches, "kernel": st.kernel, "sensor_u_Pa": st.sensor_u_Pa,
+                         "error_correlation": st.error_correlation, "seconds": result.bands_seconds}
+    files["test.json"] = dump(test)
     return files
 
 
@@ -99,6 +109,8 @@ def format_test(result) -> str:
                    f"dCLF {_c(dd['CLF'], 0)}  dCLR {_c(dd['CLR'], 0)}  front share {fs}")
         big = sorted(d["taps"], key=lambda t: -abs(t["delta_cp"]))[:3]
         out.append("    largest tap changes: " + ", ".join(f"{t['name']} {t['delta_cp']:+.3f}" for t in big))
+    if result.bands_seconds is not None:
+        out += [""] + format_bands_summary(result)
     unit = s.speed_unit
     f = speed_factor(unit)
     for name, c in result.configurations.items():
@@ -129,6 +141,45 @@ def format_test(result) -> str:
     return "\n".join(out)
 
 
+def _pm(b, width=18):
+    return f"{'n/a' if b is None else format(b.value, '+.3f') + ' +/- ' + format(b.u, '.3f'):>{width}}"
+
+
+def format_bands_summary(result) -> list:
+    """Lines: each configuration's and each change's CL, CD, CLF, CLR as estimate +/- u, and the change sentences."""
+    figs = ("CL", "CD", "CLF", "CLR")
+
+    def get(res, k):
+        try:
+            return res.band(k)
+        except KeyError:
+            return None
+
+    out = ["  bands (kriging along the surface; estimate +/- standard uncertainty u, 95 % interval = +/- 1.96 u;",
+           "  per-tap u: standard error of the mean over the steady windows"
+           + (", with the sensors' accuracy" if result.sheet.bands.sensor_u_Pa else "") + ")",
+           f"  {'':<26}" + "".join(f"{k:>18}" for k in figs)]
+    for name, c in result.configurations.items():
+        out.append(f"  {name:<26}" + "".join(_pm(get(c.bands, k)) for k in figs))
+    for ch in result.changes:
+        out.append(f"  {(ch.other_label + ' - ' + ch.base_label)[:26]:<26}" + "".join(_pm(get(ch, k)) for k in figs))
+    for ch in result.changes:
+        out.append(f"\n  {ch.other_label} vs {ch.base_label}:")
+        out += [f"    {ch.sentence(k)}" for k in figs if get(ch, k) is not None]
+        out += [f"    note: {n}" for n in ch.notes if not n.startswith("covariance on")]
+        wide = [k for k in figs if get(ch, k) is not None and get(ch.other, k) is not None
+                and ch.band(k).u > 0.5 * ch.other.band(k).u]
+        if wide:
+            out.append(f"    (the change's band is not much narrower than the configuration's own for {', '.join(wide)})")
+    st = result.sheet.bands
+    out += [f"  (estimates are the kriging model's, the figures above the {result.sheet.method} field's: their "
+            "difference is one sign of the method spread;",
+            f"  systematic errors correlated {st.error_correlation:g} between configurations; {st.patches} patches, "
+            f"{result.bands_seconds:.1f} s; a band covers 95 % under the model's assumptions and cannot see a "
+            "feature no tap comes near)"]
+    return out
+
+
 def run(args) -> int:
     from ..progress import Progress
     from ..resultsdir import check_output_dir, write_folder
@@ -140,10 +191,11 @@ def run(args) -> int:
     inputs = sheet.input_files()
     check_output_dir(out, inputs)  # before the work, so a bad --out fails fast
     progress = Progress(enabled=False if args.quiet else None)
-    result = process_sheet(sheet, progress)
+    result = process_sheet(sheet, progress, bands=True if args.bands else None)
     print(format_test(result))
     files = result_files(result, plot=not args.no_plot)
     write_folder(out, files, inputs=inputs, manifest={"sheet": str(sheet.path)})
     print(f"\n  wrote {out}/ ({len(files) + 1} files: summary.csv, runs/, configurations/, comparisons/"
-          + (", speeds/" if any(k.startswith("speeds/") for k in files) else "") + ")")
+          + (", speeds/" if any(k.startswith("speeds/") for k in files) else "")
+          + (", bands.csv" if "bands.csv" in files else "") + ")")
     return 0

@@ -1,8 +1,10 @@
-"""``meshpress uncertainty MESH TAPS``: every figure with its band.
+"""``meshpress uncertainty MESH TAPS [--baseline BASE_TAPS]``: every figure with its band.
 
 A separate command (the ``loads`` command is left as it is): it runs the same
 body, taps and field as ``loads``, then a kriging model along the surface for
-the bands (meshpress.uncertainty, meshpress.kriging).
+the bands (meshpress.uncertainty, meshpress.kriging).  With ``--baseline`` it
+also gives every figure's change (TAPS minus BASE_TAPS) with the band of the
+change, in which the errors the two runs share cancel (meshpress.change).
 """
 
 from __future__ import annotations
@@ -44,7 +46,18 @@ def add_parser(sub):
     g.add_argument("--kernel-gp", default="auto", choices=("auto",) + KRIGING_KERNELS,
                    help="kriging correlation along the surface (default auto: the best marginal likelihood among "
                         "exponential and the Laplace-Beltrami Matérn 1/2, 3/2, 5/2 and heat kernels)")
-    p.add_argument("--json", metavar="OUT", help="write the result (loads + 'uncertainty' object) as JSON")
+    c = p.add_argument_group("change from a baseline (docs/uncertainty.md)")
+    c.add_argument("--baseline", metavar="BASE_TAPS",
+                   help="tap table of the baseline configuration on the same taps: every figure's change "
+                        "(TAPS minus BASE_TAPS) with its band is given too")
+    c.add_argument("--error-correlation", type=float, default=1.0, metavar="R",
+                   help="correlation between the two runs' systematic errors (sensor accuracy, --u-p-ref, q): "
+                        "1 (default) for the same sensors, reference and q measurement, 0 for unrelated ones; "
+                        "the u column is always independent between the runs")
+    c.add_argument("--common-taps", action="store_true",
+                   help="use only the taps both files have (default: a tap in one file only is an error)")
+    p.add_argument("--json", metavar="OUT", help="write the result (loads + 'uncertainty' object, and 'change' "
+                                                 "with --baseline) as JSON")
     p.add_argument("--quiet", action="store_true", help="no progress display")
     p.set_defaults(run=run)
     return p
@@ -101,55 +114,171 @@ def _sensor(args, kind):
     return a * (pressure_factor(args.pressure_unit, "--pressure-unit: ") if kind == "p" else 1.0)
 
 
+def _u_speed(args, speed):
+    if speed is not None and args.u_speed:
+        from ..units import parse_quantity, SPEED_UNITS, speed_factor
+
+        _, unit = parse_quantity(args.speed, "m/s", SPEED_UNITS, "speed", "--speed: ")
+        return args.u_speed * speed_factor(unit)
+    return 0.0
+
+
+def _subset(taps, idx):
+    """The taps ``idx`` of a ProjectedTaps, in that order."""
+    from dataclasses import replace
+
+    return replace(taps, names=[taps.names[i] for i in idx], raw_points=taps.raw_points[idx],
+                   points=taps.points[idx], faces=taps.faces[idx], barycentric=taps.barycentric[idx],
+                   distance=taps.distance[idx], values=taps.values[idx])
+
+
 def run(args) -> int:
     import json
 
     from ..analysis import compute_loads, resolve_q
+    from ..coefficients import ISA_RHO
     from ..errors import InputError
     from ..fields import make_field
     from ..progress import Progress
-    from ..results import _clean, write_atomic
+    from ..results import _clean, check_not_input, write_atomic
     from ..textreport import format_result
     from ..uncertainty import Measurement, compute_uncertainty, q_relative_u
-    from ..results import check_not_input
 
     progress = Progress(enabled=False if args.quiet else None)
     speed = speed_mps(args.speed)
     q = resolve_q(args.q, speed, args.air_density)
     if args.patches < 50:
         raise InputError(f"--patches must be >= 50, got {args.patches}")
+    if not 0.0 <= args.error_correlation <= 1.0:
+        raise InputError(f"--error-correlation must be between 0 and 1, got {args.error_correlation:g}")
+    inputs = (args.mesh, args.taps) + ((args.baseline,) if args.baseline else ())
     if args.json:
-        check_not_input(args.json, (args.mesh, args.taps))
+        check_not_input(args.json, inputs)
     body, taps = load_inputs(args, progress)
+    base_taps, dropped = None, []
+    if args.baseline:
+        base_taps, taps, dropped = _baseline_taps(args, body, taps, progress)
     field = make_field(args.method, **method_settings(args))
     loads = compute_loads(body, taps, field, q=q, ref_area=args.ref_area, p_ref=args.p_ref, progress=progress)
     loads.inputs["taps"] = str(args.taps)
     tap_u = read_tap_u(args.taps, taps.names, taps.kind, args.pressure_unit)
-    if speed is not None and args.u_speed:
-        from ..units import parse_quantity, SPEED_UNITS, speed_factor
-
-        _, unit = parse_quantity(args.speed, "m/s", SPEED_UNITS, "speed", "--speed: ")
-        u_speed = args.u_speed * speed_factor(unit)
-    else:
-        u_speed = 0.0
-    from ..coefficients import ISA_RHO
-
     u_q_rel = (q_relative_u(q=q, u_q=args.u_q) if args.q is not None else
-               q_relative_u(speed=speed, u_speed=u_speed, rho=args.air_density or ISA_RHO, u_rho=args.u_air_density))
-    meas = Measurement.build(len(taps), tap_u=tap_u, sensor=_sensor(args, taps.kind), u_p_ref=args.u_p_ref,
-                             u_q_rel=u_q_rel)
+               q_relative_u(speed=speed, u_speed=_u_speed(args, speed), rho=args.air_density or ISA_RHO,
+                            u_rho=args.u_air_density))
+    sensor = _sensor(args, taps.kind)
+    meas = Measurement.build(len(taps), tap_u=tap_u, sensor=sensor, u_p_ref=args.u_p_ref, u_q_rel=u_q_rel)
+    carrier = None
+    if args.baseline:
+        from ..patches import Carrier
+
+        with progress.step("carrier patches"):
+            carrier = Carrier(body, args.patches, progress=progress)
     with progress.step("kriging bands"):
         unc = compute_uncertainty(body, taps, q=q, ref_area=loads.ref_area_m2, meas=meas, field=field,
-                                  n_patches=args.patches, kernel=args.kernel_gp, progress=progress)
+                                  n_patches=args.patches, kernel=args.kernel_gp, carrier=carrier, progress=progress)
+    change = None
+    if args.baseline:
+        from ..change import ErrorSources, compute_change
+
+        base_field = make_field(args.method, **method_settings(args))
+        base_loads = compute_loads(body, base_taps, base_field, q=q, ref_area=loads.ref_area_m2, p_ref=args.p_ref,
+                                   progress=progress)
+        base_u = read_tap_u(args.baseline, base_taps.names, base_taps.kind, args.pressure_unit)
+        e_other = ErrorSources.build(len(taps), random_u=tap_u, systematic_u=sensor, u_p_ref=args.u_p_ref,
+                                     u_q_rel=u_q_rel)
+        e_base = ErrorSources.build(len(taps), random_u=base_u, systematic_u=sensor, u_p_ref=args.u_p_ref,
+                                    u_q_rel=u_q_rel)
+        with progress.step("kriging bands of the baseline and of the change"):
+            base_unc = compute_uncertainty(body, base_taps, q=q, ref_area=loads.ref_area_m2,
+                                           meas=e_base.measurement(), field=base_field, carrier=carrier,
+                                           kernel=args.kernel_gp, progress=progress)
+            change = compute_change(body, taps, base_taps.values, taps.values, err_base=e_base, err_other=e_other,
+                                    correlation=args.error_correlation, q=q, ref_area=loads.ref_area_m2,
+                                    carrier=carrier, kernel=args.kernel_gp, base_result=base_unc, other_result=unc,
+                                    field_change=(_face_values(loads) - _face_values(base_loads)),
+                                    base_label=str(args.baseline), other_label=str(args.taps), progress=progress)
+        if dropped:
+            change.notes.insert(0, f"{len(dropped)} taps in one file only were left out of every figure "
+                                   f"(--common-taps): {', '.join(dropped)}")
+        if (tap_u is None) != (base_u is None):
+            change.notes.append("only one of the two tap files has a u column: the other's readings are taken "
+                                "as exact")
     print(format_result(loads))
     print()
     print(format_bands(unc, field.describe()))
+    if change is not None:
+        print()
+        print(format_change(change))
     if args.json:
         d = loads.to_dict()
         d["uncertainty"] = unc.to_dict()
-        write_atomic(args.json, json.dumps(_clean(d), indent=2) + "\n", protect=(args.mesh, args.taps))
+        if change is not None:
+            d["baseline_uncertainty"] = change.base.to_dict()
+            d["change"] = change.to_dict()
+        write_atomic(args.json, json.dumps(_clean(d), indent=2) + "\n", protect=inputs)
         print(f"\n  wrote {args.json}")
     return 0
+
+
+def _face_values(loads):
+    from ..runs import face_values
+
+    return face_values(loads)
+
+
+def _baseline_taps(args, body, taps, progress):
+    """The baseline's taps placed on the body, matched to ``taps`` by name (same order).
+
+    Returns
+    -------
+    base, taps, dropped
+        The baseline taps and the config taps, both restricted to the shared ones, and the names left out.
+    """
+    from ..change import match_taps
+    from ..errors import InputError
+    from ..projection import project_taps
+    from ..taps import read_taps
+    from ..tolerances import TOL
+    from .options import max_distance_m
+
+    table = read_taps(args.baseline, pressure_unit=args.pressure_unit)
+    if table.kind != taps.kind:
+        raise InputError(f"{args.baseline} has {table.kind} values and {args.taps} has {taps.kind}: "
+                         "give both files in the same kind (p or cp)")
+    with progress.step("projecting baseline taps"):
+        base = project_taps(body, table, max_distance=max_distance_m(args.max_tap_distance, args.length_unit))
+    oi, bi, dropped = match_taps(base.names, base.raw_points, taps.names, taps.raw_points,
+                                 tolerance_m=TOL.same_tap_m, base_label=str(args.baseline),
+                                 other_label=str(args.taps), common_only=args.common_taps)
+    return _subset(base, bi), _subset(taps, oi), dropped
+
+
+def format_change(ch) -> str:
+    """Plain-text table of every figure's change with its band, each run's own u beside, and sentences."""
+    lines = [f"change: {ch.other_label} minus {ch.base_label} ({ch.n_taps} shared taps; kriging of the tap-by-tap "
+             "difference; 95 % interval = change +/- 1.96 u)", ""]
+    lines.append(f"  {'figure':<16}{'change':>11}{'u':>10}   {'95 % interval':<24}{'meas.':>9}{'sampl.':>9}"
+                 f"{'q':>8}   {'field':>10}{'u taps':>10}{'u base':>10}")
+    for b in ch.bands:
+        newton = b.name.endswith(("_N", "_Nm"))
+        spec, uspec = (",.1f", ",.1f") if newton else ("+.4f", ".4f")
+        fv = "" if b.field_value is None else format(b.field_value, spec)
+        uo, ub = ch.own_u("other", b.name), ch.own_u("base", b.name)
+        lines.append(f"  {b.name:<16}{format(b.value, spec):>11}{format(b.u, uspec):>10}   "
+                     f"{'[' + format(b.lo95, spec) + ', ' + format(b.hi95, spec) + ']':<24}"
+                     f"{format(b.u_measurement, uspec):>9}{format(b.u_sampling, uspec):>9}{format(b.u_q, uspec):>8}"
+                     f"   {fv:>10}{'' if uo is None else format(uo, uspec):>10}"
+                     f"{'' if ub is None else format(ub, uspec):>10}")
+    lines += ["", f"  model of the difference: {ch.model}",
+              "  field column: the field method's change; u taps / u base: each configuration's own band"]
+    said = [nm for nm in ("CL", "CLF", "CLR", "CD") if nm in ch.names]
+    if said:
+        lines.append("")
+        lines += [f"  {ch.sentence(nm)}" for nm in said]
+    lines.append("")
+    lines += [f"  assumed: {a}" for a in ch.assumptions]
+    lines += [f"  note: {n}" for n in ch.notes]
+    return "\n".join(lines)
 
 
 def format_bands(unc, field_name="field") -> str:
