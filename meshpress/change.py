@@ -211,7 +211,7 @@ def assumptions_text(correlation: float) -> list:
 
 def compute_change(body, taps, y_base, y_other, *, err_base: ErrorSources, err_other: ErrorSources,
                    correlation: float = 1.0, q=None, ref_area, carrier=None, n_patches: int = 2500,
-                   kernel: str = "exponential", base_result=None, other_result=None, field_change=None,
+                   kernel: str = "auto", base_result=None, other_result=None, field_change=None,
                    base_label="base", other_label="other", progress=None) -> ChangeResult:
     """Kriging estimate and band of every figure's change ``other - base`` on shared taps.
 

@@ -100,8 +100,9 @@ class SurfaceGP:
         Used by the distance kernels, and by every kernel for the length
         scale's bounds.
     kernel : str
-        One of :data:`KERNELS`, or ``"auto"`` (the candidates
-        :data:`AUTO_KERNELS` that the inputs allow, best marginal likelihood).
+        One of :data:`KERNELS`; several, comma separated, to keep the one of
+        best marginal likelihood; or ``"auto"`` for :data:`AUTO_KERNELS`
+        (those the inputs allow).
     spectrum : (lam, phi, area), optional
         Laplace-Beltrami eigenvalues ``(k,)`` 1/m2, mass-orthonormal
         eigenvectors ``(n_c, k)`` and the surface area m2
@@ -113,6 +114,12 @@ class SurfaceGP:
     mean_variance : float, optional
         ``tau^2``, prior variance of the constant mean; default
         ``(10 * (|mean y| + std y))^2``.
+    normals : (n_c, 3) float, optional
+        Unit normals at the nodes: adds a linear trend ``beta . n`` with
+        ``beta ~ N(0, t^2 I)`` and ``t`` fitted by maximum likelihood
+        (universal kriging on the normal; ``trend_variance_``).
+    trend_variance : float, optional
+        Fix ``t^2`` (value unit^2) instead of fitting it.
 
     Attributes (after fit)
     ----------------------
@@ -121,23 +128,31 @@ class SurfaceGP:
     length_scale_, variance_, nugget_, mean_variance_, nll_ : float
     candidates_ : dict
         ``{kernel: negative log marginal likelihood}`` of every kernel tried.
+    rejected_ : list of str
+        Kernels whose fitted length scale exceeds the largest node distance
+        (not used when another one did not).
     clipped_ : float
         Diagonal shift added to a distance kernel's correlation matrix to make
         it positive definite (0 when it already was, always 0 for ``lb-``).
     """
 
     def __init__(self, distance, *, kernel: str = "exponential", spectrum=None, length_scale=None, variance=None,
-                 nugget=None, mean_variance=None):
+                 nugget=None, mean_variance=None, normals=None, trend_variance=None):
         self.distance = np.asarray(distance, float)
-        if kernel != "auto" and kernel not in KERNELS:
-            raise InputError(f"kernel {kernel!r} is not one of: auto, {', '.join(KERNELS)}")
-        if kernel in SPECTRAL_KERNELS and spectrum is None:
+        names = list(AUTO_KERNELS) if kernel == "auto" else [k.strip() for k in kernel.split(",")]
+        for k in names:
+            if k not in KERNELS:
+                raise InputError(f"kernel {k!r} is not one of: auto, {', '.join(KERNELS)}")
+        if kernel != "auto" and spectrum is None and any(k in SPECTRAL_KERNELS for k in names):
             raise InputError(f"kernel {kernel!r} needs the surface's Laplace-Beltrami spectrum")
+        self.candidate_names = [k for k in names if k in DISTANCE_KERNELS or spectrum is not None]
         self.kernel = kernel
         self.spectrum = spectrum
         self.length_scale = length_scale
         self.variance = variance
         self.nugget = nugget
+        self.normals = None if normals is None else np.asarray(normals, float)
+        self.trend_variance = trend_variance
         self.mean_variance = mean_variance
 
     # ------------------------------------------------------------------ fit
@@ -169,24 +184,34 @@ class SurfaceGP:
         scale = float(np.std(y)) if n > 1 and np.std(y) > 0 else max(abs(float(np.mean(y))), 1.0)
         self.mean_variance_ = (self.mean_variance if self.mean_variance is not None
                                else (10.0 * (abs(float(np.mean(y))) + scale)) ** 2)
+        # Trend on the surface normal (universal kriging, Cressie 1993 sec. 3.4; R&W sec. 2.7): forward-, rear-,
+        # up- and down-facing skin see systematically different pressure (stagnation on the nose, base pressure,
+        # suction over the top), which a stationary residual cannot carry into places no tap sees.
+        self.TN_ = None if self.normals is None else np.asarray(T @ self.normals)  # (n, 3)
         dmax = float(self.distance.max())
         if length_bounds is None:
             # Below the taps' own spacing the data say nothing about the correlation, and a short length
             # scale makes every integral look certain: the lower bound is the median nearest-tap distance.
             length_bounds = (self._tap_spacing(T), 3.0 * dmax)
-        if self.kernel == "auto":
-            names = [k for k in AUTO_KERNELS if k in DISTANCE_KERNELS or self.spectrum is not None]
-        else:
-            names = [self.kernel]
-        self.candidates_ = {}
-        best = None
-        for name in names:
+        self.candidates_, self.rejected_ = {}, []
+        best = fallback = None
+        for name in self.candidate_names:
             p, nll = self._fit_kernel(name, T, y, nv, scale, dmax, length_bounds)
             self.candidates_[name] = nll
+            if fallback is None or (np.isfinite(nll) and not nll >= fallback[2]):
+                fallback = (name, p, nll)
+            # A length scale beyond the largest surface distance means the kernel sees the whole body as one
+            # constant plus noise: on a closed body every force of a constant is zero, so its bands collapse to
+            # nothing (measured on a wing whose upper and lower taps are a few mm apart round the leading edge:
+            # CL 0 +/- 2e-9 against a true 0.49).  Such a fit is not used while another kernel fits without it.
+            if len(self.candidate_names) > 1 and self.length_scale is None and p["l"] >= dmax:
+                self.rejected_.append(name)
+                continue
             if best is None or (np.isfinite(nll) and not nll >= best[2]):
                 best = (name, p, nll)
-        self.kernel_, p, self.nll_ = best
+        self.kernel_, p, self.nll_ = best or fallback
         self.length_scale_, self.variance_, self.nugget_ = p["l"], p["s2"], p["nug"]
+        self.trend_variance_ = p["tn"]
         self._condition()
         return self
 
@@ -222,13 +247,18 @@ class SurfaceGP:
     def _fit_kernel(self, name, T, y, nv, scale, dmax, length_bounds):
         n = len(y)
         corr = self._tap_corr_fn(name, T)
-        fixed = {"l": self.length_scale, "s2": self.variance, "nug": self.nugget}
+        fixed = {"l": self.length_scale, "s2": self.variance, "nug": self.nugget,
+                 "tn": self.trend_variance if self.TN_ is not None else 0.0}
         # The nugget is fitted as a fraction of the field variance, at most NUGGET_MAX: left free, a field the
         # kernel cannot follow is "explained" as pure noise, and noise averages out of every integral, so the
         # bands would shrink exactly when the model fits worst.
+        # The trend's prior variance is bounded below at a tenth of the data's spread: with no tap on, say, the
+        # base, the data cannot tell how much the rear-facing skin differs, and a vanishing trend would say "not
+        # at all" with certainty.
         bounds = {"l": np.log(length_bounds), "s2": np.log([1e-4 * scale**2, 1e2 * scale**2]),
-                  "nug": np.log([1e-8, NUGGET_MAX])}
-        free = [k for k in ("l", "s2", "nug") if fixed[k] is None]
+                  "nug": np.log([1e-8, NUGGET_MAX]), "tn": np.log([1e-2 * scale**2, 1e2 * scale**2])}
+        free = [k for k in ("l", "s2", "nug", "tn") if fixed[k] is None]
+        NN = None if self.TN_ is None else self.TN_ @ self.TN_.T
 
         def unpack(theta):
             p = dict(fixed)
@@ -243,6 +273,8 @@ class SurfaceGP:
             p = unpack(theta)
             R, dR = corr(p["l"])
             S = self.mean_variance_ + p["s2"] * R + np.diag(nv + p["nug"])
+            if p["tn"]:
+                S = S + p["tn"] * NN
             try:
                 c, low = sla.cho_factor(S, lower=True, check_finite=False)
             except (np.linalg.LinAlgError, ValueError):
@@ -260,8 +292,10 @@ class SurfaceGP:
                     if fixed["nug"] is None:  # the nugget is a fraction of s2 and moves with it
                         tr += p["nug"] * np.trace(A)
                     g.append(0.5 * tr)
-                else:
+                elif k == "nug":
                     g.append(0.5 * p["nug"] * np.trace(A))
+                else:
+                    g.append(0.5 * p["tn"] * np.sum(A * NN))
             return f, np.array(g)
 
         if free and n >= 3:
@@ -273,7 +307,7 @@ class SurfaceGP:
                 x0 = []
                 for k in free:
                     x0.append({"l": np.log(l0) if l0 else 0.0, "s2": np.log(scale**2),
-                               "nug": np.log(1e-3)}[k])
+                               "nug": np.log(1e-3), "tn": np.log(scale**2)}[k])
                 x0 = np.clip(x0, [bounds[k][0] for k in free], [bounds[k][1] for k in free])
                 r = minimize(nll_grad, x0, jac=True, method="L-BFGS-B",
                              bounds=[tuple(bounds[k]) for k in free], options={"maxiter": 200})
@@ -281,7 +315,8 @@ class SurfaceGP:
                     best = r
             return unpack(best.x), float(best.fun)
         # Too few taps to learn from: documented defaults (a fifth of the body, the data's spread).
-        p = {"l": fixed["l"] or 0.2 * dmax, "s2": fixed["s2"] or scale**2, "nug": fixed["nug"] or 1e-4 * scale**2}
+        p = {"l": fixed["l"] or 0.2 * dmax, "s2": fixed["s2"] or scale**2, "nug": fixed["nug"] or 1e-4 * scale**2,
+             "tn": fixed["tn"] if fixed["tn"] is not None else scale**2}
         return p, float("nan")
 
     def _tap_spacing(self, T) -> float:
@@ -328,7 +363,11 @@ class SurfaceGP:
                 R = R + shift * np.eye(len(R))
                 self.clipped_ = shift
             self._K = tau2 + s2 * R
+            if self.trend_variance_:
+                self._K += self.trend_variance_ * (self.normals @ self.normals.T)
             TK = np.asarray(self.T_ @ self._K)  # (n, n_c)
+        if self._K is None and self.trend_variance_:
+            TK = TK + self.trend_variance_ * (self.TN_ @ self.normals.T)
         S = np.asarray(self.T_ @ TK.T) + np.diag(self.noise_var_ + self.nugget_)
         self.TK_ = TK
         self.S_cho_ = sla.cho_factor(S, lower=True)
@@ -340,17 +379,25 @@ class SurfaceGP:
         self._check()
         if self._K is None:
             self._K = self.mean_variance_ + (self._phi * self._g) @ self._phi.T
+            if self.trend_variance_:
+                self._K += self.trend_variance_ * (self.normals @ self.normals.T)
         return self._K
 
     def _K_dot(self, a):
         if self._K is not None:
             return self._K @ a
-        return self.mean_variance_ * a.sum(axis=0, keepdims=True) + self._phi @ (self._g[:, None] * (self._phi.T @ a))
+        out = self.mean_variance_ * a.sum(axis=0, keepdims=True) + self._phi @ (self._g[:, None] * (self._phi.T @ a))
+        if self.trend_variance_:
+            out = out + self.trend_variance_ * (self.normals @ (self.normals.T @ a))
+        return out
 
     def _K_diag(self):
         if self._K is not None:
             return np.diag(self._K).copy()
-        return self.mean_variance_ + (self._phi**2) @ self._g
+        d = self.mean_variance_ + (self._phi**2) @ self._g
+        if self.trend_variance_:
+            d = d + self.trend_variance_ * (self.normals**2).sum(axis=1)
+        return d
 
     # ------------------------------------------------------------ posterior
     def _check(self):
@@ -398,5 +445,6 @@ class SurfaceGP:
         return self.K_ - self.TK_.T @ sla.cho_solve(self.S_cho_, self.TK_)
 
     def describe(self) -> str:
+        trend = f", normal trend sd {np.sqrt(self.trend_variance_):.3g}" if self.trend_variance_ else ""
         return (f"kriging ({self.kernel_} along the surface, length {self.length_scale_:.3g} m, "
-                f"sd {np.sqrt(self.variance_):.3g}, nugget sd {np.sqrt(self.nugget_):.3g})")
+                f"sd {np.sqrt(self.variance_):.3g}, nugget sd {np.sqrt(self.nugget_):.3g}{trend})")

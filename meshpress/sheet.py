@@ -42,7 +42,8 @@ COMPARE_KEYS = {"base", "other"}
 UNCERTAINTY_KEYS = {"bands", "patches", "kernel", "sensor_accuracy", "full_scale", "error_correlation"}
 REFERENCE_KEYS = {"port", "cp", "column"}
 FORMATS = ("auto", "wide", "long")
-GP_KERNELS = ("exponential", "matern32")  # the kriging correlations (as 'meshpress uncertainty --kernel-gp')
+# the kriging correlations (as 'meshpress uncertainty --kernel-gp'; a test keeps them equal to kriging.KERNELS)
+GP_KERNELS = ("auto", "exponential", "matern32", "lb-matern12", "lb-matern32", "lb-matern52", "lb-heat")
 
 
 @dataclass(frozen=True)
@@ -114,7 +115,7 @@ class BandSettings:
 
     enabled: bool = False
     patches: int = 2500
-    kernel: str = "exponential"
+    kernel: str = "auto"
     sensor_u_Pa: float = 0.0
     error_correlation: float = 1.0
 
@@ -509,7 +510,7 @@ def _bands(cx, d) -> BandSettings:
     patches = d.get("patches", 2500)
     if isinstance(patches, bool) or not isinstance(patches, int) or patches < 50:
         raise cx.err(f"{where}.patches", f"{patches!r} must be a whole number >= 50")
-    kernel = _string(cx, d, "kernel", where, default="exponential")
+    kernel = _string(cx, d, "kernel", where, default="auto")
     if kernel not in GP_KERNELS:
         raise cx.err(f"{where}.kernel", f"{kernel!r} is not one of: {', '.join(GP_KERNELS)}")
     sensor = 0.0

@@ -368,7 +368,7 @@ def report_numbers(result: UncertaintyResult, figure: str = "CL") -> dict:
 
 def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | None = None, carrier=None,
                         n_patches: int = 2500, field=None, kernel: str = "auto", length_scale=None,
-                        progress=None) -> UncertaintyResult:
+                        trend: str | None = None, progress=None) -> UncertaintyResult:
     """Kriging estimate and band of every figure.
 
     Parameters
@@ -390,6 +390,9 @@ def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | Non
         kriging ones, with its own measurement uncertainty.
     kernel, length_scale
         Passed to :class:`~meshpress.kriging.SurfaceGP`.
+    trend : {"normal", None}
+        ``"normal"``: the field's mean has a term linear in the surface
+        normal (see :class:`~meshpress.kriging.SurfaceGP`).
 
     Returns
     -------
@@ -410,8 +413,9 @@ def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | Non
         carrier = Carrier(body, n_patches, progress=progress)
     a = carrier.fine_weights(G)
     T = carrier.points_matrix(taps.points)
-    spectrum = carrier.spectrum() if kernel == "auto" or kernel.startswith("lb-") else None
-    gp = SurfaceGP(carrier.distance, kernel=kernel, spectrum=spectrum, length_scale=length_scale)
+    spectrum = carrier.spectrum() if kernel == "auto" or "lb-" in kernel else None
+    gp = SurfaceGP(carrier.distance, kernel=kernel, spectrum=spectrum, length_scale=length_scale,
+                   normals=carrier.normals if trend == "normal" else None)
     gp.fit(T, taps.values, meas.tap_u**2)
     mean, var, Wk = gp.figures(a)
     closure = G.sum(axis=0)
@@ -428,6 +432,16 @@ def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | Non
         notes.append(f"surface-distance covariance was not positive definite: regularised by a diagonal shift "
                      f"of {gp.clipped_:.0e} of the variance")
     notes.append(f"covariance on {carrier.n} patches of about {carrier.spacing * 1000:.0f} mm")
+    if len(gp.candidates_) > 1:
+        nll = {k: v for k, v in gp.candidates_.items() if np.isfinite(v)}
+        if nll:
+            others = ", ".join(f"{k} {v - gp.nll_:+.1f}" for k, v in sorted(nll.items(), key=lambda kv: kv[1])
+                               if k != gp.kernel_)
+            notes.append(f"kernel {gp.kernel_} chosen by marginal likelihood (the others' negative log-likelihood "
+                         f"above it: {others})")
+        if gp.rejected_:
+            notes.append(f"not used: {', '.join(gp.rejected_)} (length scale beyond the largest surface distance: "
+                         f"the fit treats the body as one constant plus noise)")
     bands = [Band(nm, float(mean[k]), float(np.sqrt(v_meas[k] + v_samp[k] + v_q[k])), float(np.sqrt(v_meas[k])),
                   float(np.sqrt(v_samp[k])), float(np.sqrt(v_q[k])), field_vals[k]) for k, nm in enumerate(names)]
     face_sd = np.asarray(carrier.face_matrix @ np.sqrt(gp.node_var()))

@@ -29,10 +29,12 @@ def test_variance_shrinks_when_taps_are_added_at_the_planned_points(sphere):
     assert np.all(plan.u_after < plan.u_before)
     # Refit the same model (fixed hyperparameters) with the planned taps read: the kriging variance of each
     # figure is what the planner expected (posterior variance does not depend on the readings).
-    gp0 = SurfaceGP(plan.carrier.distance).fit(plan.carrier.points_matrix(taps.points), taps.values)
+    spec = plan.carrier.spectrum()
+    gp0 = SurfaceGP(plan.carrier.distance, kernel="auto", spectrum=spec).fit(plan.carrier.points_matrix(taps.points),
+                                                                          taps.values)
     both = make_taps(sphere, np.vstack([taps.points, plan.points]))
-    gp1 = SurfaceGP(plan.carrier.distance, length_scale=gp0.length_scale_, variance=gp0.variance_,
-                    nugget=gp0.nugget_, mean_variance=gp0.mean_variance_)
+    gp1 = SurfaceGP(plan.carrier.distance, kernel=gp0.kernel_, spectrum=spec, length_scale=gp0.length_scale_,
+                    variance=gp0.variance_, nugget=gp0.nugget_, mean_variance=gp0.mean_variance_)
     gp1.fit(plan.carrier.points_matrix(both.points), both.values)
     _, var1, _ = gp1.figures(plan.figure_weights)
     _, var0, _ = gp0.figures(plan.figure_weights)

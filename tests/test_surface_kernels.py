@@ -90,3 +90,6 @@ def test_cli_kernel_choices_match_the_model():
     from meshpress.kriging import KERNELS
 
     assert KRIGING_KERNELS == KERNELS
+    from meshpress.sheet import GP_KERNELS
+
+    assert GP_KERNELS == ("auto",) + KERNELS
