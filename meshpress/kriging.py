@@ -370,7 +370,20 @@ class SurfaceGP:
             TK = TK + self.trend_variance_ * (self.TN_ @ self.normals.T)
         S = np.asarray(self.T_ @ TK.T) + np.diag(self.noise_var_ + self.nugget_)
         self.TK_ = TK
-        self.S_cho_ = sla.cho_factor(S, lower=True)
+        # Round-off can break the factorisation when the taps' covariance is dominated by the constant mean
+        # (e.g. readings that are all equal): a jitter growing from 1e-12 of the mean diagonal restores it.
+        jitter = 0.0
+        scale = float(np.mean(np.diag(S))) or 1.0
+        for e in [None] + list(range(-12, -3)):
+            try:
+                self.S_cho_ = sla.cho_factor(S if e is None else S + (10.0**e * scale) * np.eye(len(S)), lower=True)
+                jitter = 0.0 if e is None else 10.0**e * scale
+                break
+            except np.linalg.LinAlgError:
+                continue
+        else:
+            raise np.linalg.LinAlgError("the taps' covariance is not positive definite")
+        self.jitter_ = jitter
 
     # ------------------------------------------------------- prior pieces
     @property

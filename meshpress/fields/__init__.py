@@ -10,6 +10,7 @@ from ..errors import InputError
 from .base import Field, NotFittedError
 from .biharmonic import BiharmonicField, HarmonicField
 from .geodesic_rbf import GeodesicRBFField
+from .kriging_field import KrigingField
 from .nearest import NearestTapField
 from .rbf import RBFField
 from .regional import RegionalField
@@ -23,6 +24,7 @@ METHODS: dict[str, type] = {
     "harmonic": HarmonicField,
     "nearest": NearestTapField,
     "strip": CentreLineStripField,
+    "kriging": KrigingField,
 }
 
 
@@ -51,4 +53,5 @@ def make_field(method: str = "rbf", *, regions=None, empty_value=None, **setting
 
 
 __all__ = ["Field", "NotFittedError", "METHODS", "make_field", "RBFField", "GeodesicRBFField",
-           "BiharmonicField", "HarmonicField", "NearestTapField", "CentreLineStripField", "RegionalField"]
+           "BiharmonicField", "HarmonicField", "NearestTapField", "CentreLineStripField", "RegionalField",
+           "KrigingField"]
