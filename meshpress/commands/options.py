@@ -45,7 +45,8 @@ def add_field_options(p):
     g = p.add_argument_group("pressure field (docs/methods.md)")
     g.add_argument("--method", default="rbf", help="field method: " + ", ".join(METHODS) + " (default rbf)")
     g.add_argument("--kernel", default=None, help="RBF kernel: " + ", ".join(KERNELS)
-                   + " (default thin_plate_spline); geodesic: " + ", ".join(GEODESIC_KERNELS) + " (default matern52)")
+                   + " (default thin_plate_spline); geodesic: " + ", ".join(GEODESIC_KERNELS) + " (default matern52); "
+                   "kriging: as --kernel-gp of 'meshpress uncertainty' (default exponential)")
     g.add_argument("--smoothing", type=float, default=0.0, help="RBF smoothing (default 0: exact at taps)")
     g.add_argument("--length", type=float, metavar="L",
                    help="geodesic kernel length scale, m (default: chosen by leave-one-out error)")
@@ -97,6 +98,8 @@ def method_settings(args, method=None) -> dict:
         s = {**work, **common}
     elif method == "strip":
         s = {"band": args.band, **common}
+    elif method == "kriging":
+        s = {"kernel": args.kernel or "exponential"}  # far from every tap it returns to the fitted mean
     else:
         s = {}
     if args.regions is not None:
