@@ -99,7 +99,7 @@ def method_settings(args, method=None) -> dict:
     elif method == "strip":
         s = {"band": args.band, **common}
     elif method == "kriging":
-        s = {"kernel": args.kernel or "exponential"}  # far from every tap it returns to the fitted mean
+        s = {"kernel": args.kernel or "exponential", **common}
     else:
         s = {}
     if args.regions is not None:

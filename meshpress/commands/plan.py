@@ -30,8 +30,9 @@ def add_parser(sub):
     p.add_argument("--length-scale", default=None, metavar="L",
                    help="kriging length scale when it cannot be fitted (fewer than 3 taps), e.g. '0.8 m'")
     p.add_argument("--patches", type=int, default=2500, metavar="N", help="carrier patches (default 2500)")
-    p.add_argument("--kernel-gp", default="auto", choices=("auto",) + KRIGING_KERNELS,
-                   help="kriging correlation along the surface (default auto; see meshpress uncertainty --help)")
+    p.add_argument("--kernel-gp", default="exponential", choices=("auto",) + KRIGING_KERNELS,
+                   help="kriging correlation along the surface (default exponential; see meshpress uncertainty "
+                        "--help and docs/uncertainty.md)")
     p.add_argument("--out", default="planned_taps.csv", help="CSV of the new taps, mesh coordinates and unit "
                                                              "(default planned_taps.csv)")
     p.add_argument("--picture", metavar="PNG", help="write a picture of the plan")

@@ -19,9 +19,10 @@ from __future__ import annotations
 import numpy as np
 
 from .base import Field
+from .bounds import BoundedMixin, check_extrapolation
 
 
-class KrigingField(Field):
+class KrigingField(BoundedMixin, Field):
     """Posterior mean of the surface Gaussian process.
 
     Parameters
@@ -34,14 +35,20 @@ class KrigingField(Field):
         Carrier size (patches of the covariance).
     trend : {None, "normal"}
         ``"normal"`` adds a mean linear in the surface normal.
+    extrapolation : {"clamp", "decay", "none"}
+        Bounding beyond the taps, as for every method (:mod:`meshpress.fields.bounds`).
+    far_value : float, optional
+        The value far from every tap for ``"decay"``.
     """
 
     name = "kriging"
 
-    def __init__(self, kernel="exponential", patches=2500, trend=None):
+    def __init__(self, kernel="exponential", patches=2500, trend=None, extrapolation="clamp", far_value=None):
         self.kernel = kernel
         self.patches = patches
         self.trend = trend
+        self.extrapolation = extrapolation
+        self.far_value = far_value
 
     def _fit(self, body, taps, progress):
         from ..errors import InputError
@@ -50,6 +57,7 @@ class KrigingField(Field):
 
         if len(taps) < 3:
             raise InputError(f"the kriging method needs at least 3 taps, got {len(taps)}")
+        check_extrapolation(self.extrapolation, self.far_value)
         if self.trend not in (None, "normal"):
             raise InputError(f"kriging trend must be 'normal' or none, got {self.trend!r}")
         carrier = Carrier(body, self.patches, progress=progress)
@@ -61,7 +69,7 @@ class KrigingField(Field):
         self.node_values_ = gp.node_mean()
 
     def _face_values(self, progress):
-        return np.asarray(self.carrier_.face_matrix @ self.node_values_)
+        return self._bounded(np.asarray(self.carrier_.face_matrix @ self.node_values_))
 
     def loo_residuals(self) -> np.ndarray:
         import scipy.linalg as sla
