@@ -25,7 +25,7 @@ import numpy as np
 from meshpress import samples
 
 TMP = Path("/tmp/meshpress_bench_1m.npz")
-METHODS = ["rbf", "geodesic", "biharmonic", "harmonic", "nearest", "strip"]
+METHODS = ["rbf", "geodesic", "biharmonic", "harmonic", "nearest", "strip", "kriging"]
 MID = 0.5 * sum(samples.WHEELBASE_X)
 
 
