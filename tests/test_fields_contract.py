@@ -300,3 +300,35 @@ def test_refine_long_edges_is_conforming_and_keeps_the_surface():
     assert m.is_watertight and m.is_winding_consistent and m.euler_number == 2
     assert m.area == pytest.approx(m0.area, rel=1e-12) and m.volume == pytest.approx(m0.volume, rel=1e-12)
     assert np.linalg.norm(v2[f2] - v2[np.roll(f2, -1, axis=1)], axis=2).max() <= hmax
+
+
+def test_compare_never_recommends_harmonic_for_loads():
+    # The harmonic field from point data has no continuum limit (zero capacity of a point in 2-D; e.g.
+    # Evans, Partial Differential Equations, 2010, on capacity [from memory]); tests/test_fields_contract
+    # checks the drift numerically below.  Even with the lowest leave-one-out error it is not recommended.
+    from meshpress.compare import recommend, summary
+
+    rows = [{"method": "harmonic", "loo_rms": 0.01, "loo_unit": "Cp", "CL": 0.3},
+            {"method": "biharmonic", "loo_rms": 0.02, "loo_unit": "Cp", "CL": 0.35}]
+    assert recommend(rows) == "biharmonic"
+    text = summary(rows, {"CL": 0.05}, "biharmonic")
+    assert "never recommended for loads" in text and "harmonic scored lower" in text
+    assert recommend(rows[:1]) is None
+
+
+def test_harmonic_loads_drift_under_refinement_while_biharmonic_converges():
+    # The same 60 taps on the unit sphere at icosphere levels 3 and 5: -int u n_z dA of the biharmonic field
+    # approaches the exact value of the sampled field (for Cp + 0.5 z: -0.5 * 4 pi / 3, sphere volume
+    # [geometry]); the harmonic field's moves away as the spikes at the taps narrow (point capacity -> 0).
+    pts = fibonacci_sphere(60)
+    vals = sphere_cp(pts) + 0.5 * pts[:, 2]
+    exact_fz = -0.5 * 4 * np.pi / 3
+    err = {}
+    for method in ("harmonic", "biharmonic"):
+        for level in (3, 5):
+            v, f = icosphere(level)
+            body = Body(v, f)
+            fv = make_field(method, extrapolation="none").fit(body, make_taps(body, pts, vals)).face_values()
+            err[method, level] = abs(-(fv * body.area_vectors[:, 2]).sum() / exact_fz - 1)
+    assert err["biharmonic", 5] < err["biharmonic", 3] and err["biharmonic", 5] < 0.01
+    assert err["harmonic", 5] > err["harmonic", 3] + 0.02
