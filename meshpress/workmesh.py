@@ -266,8 +266,8 @@ class WorkMesh:
             out_p, out_f, _ = nearest_on_faces(body, p)
         else:
             out_p, out_f = np.empty_like(p), np.empty(len(p), np.int64)
-            for s in range(0, len(p), 20_000):  # blocks bound the memory of the candidate arrays
-                out_p[s:s + 20_000], out_f[s:s + 20_000] = _nearest_among(body, p[s:s + 20_000], 16)
+            for s in range(0, len(p), 4000):  # blocks bound the memory of the candidate arrays
+                out_p[s:s + 4000], out_f[s:s + 4000] = _nearest_among(body, p[s:s + 4000], 16)
         return out_f, points_to_barycentric(body.triangles[out_f], out_p)
 
     def tap_distances(self, points, *, progress=None, corners: int | None = None):
