@@ -304,8 +304,8 @@ def test_refine_long_edges_is_conforming_and_keeps_the_surface():
 
 def test_compare_never_recommends_harmonic_for_loads():
     # The harmonic field from point data has no continuum limit (zero capacity of a point in 2-D; e.g.
-    # Evans, Partial Differential Equations, 2010, on capacity [from memory]); tests/test_fields_contract
-    # checks the drift numerically below.  Even with the lowest leave-one-out error it is not recommended.
+    # Evans, Partial Differential Equations, 2010, on capacity [from memory]); the next test
+    # checks the drift numerically.  Even with the lowest leave-one-out error it is not recommended.
     from meshpress.compare import recommend, summary
 
     rows = [{"method": "harmonic", "loo_rms": 0.01, "loo_unit": "Cp", "CL": 0.3},
