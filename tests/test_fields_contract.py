@@ -332,3 +332,17 @@ def test_harmonic_loads_drift_under_refinement_while_biharmonic_converges():
             err[method, level] = abs(-(fv * body.area_vectors[:, 2]).sum() / exact_fz - 1)
     assert err["biharmonic", 5] < err["biharmonic", 3] and err["biharmonic", 5] < 0.01
     assert err["harmonic", 5] > err["harmonic", 3] + 0.02
+
+
+def test_even_car_body_has_no_long_edges():
+    # samples.car_body(even=True): equal arc lengths along and around, so no edge is much longer than the
+    # mean edge (that of an equilateral triangle of the mean face area [geometry]); a closed surface.
+    import trimesh
+
+    from meshpress.samples import car_body
+    from meshpress.workmesh import mean_edge
+
+    v, f = car_body(60, 54, even=True)
+    m = trimesh.Trimesh(v, f, process=False)
+    assert m.is_watertight and m.volume > 0
+    assert np.linalg.norm(v[f] - v[np.roll(f, -1, axis=1)], axis=2).max() < 2.5 * mean_edge(m.area, len(f))
