@@ -1,7 +1,8 @@
 """Several field methods on the same taps: cross-validation error, loads and their spread.
 
 The recommendation is the method with the lowest leave-one-out RMS error at the
-taps (a reading predicted from all the others; closed forms where they exist:
+taps among the methods meant for loads (``harmonic`` is shown as a cross-check
+only) (a reading predicted from all the others; closed forms where they exist:
 Rippa 1999 for the kernel methods).  Low cross-validation error at the taps is
 evidence, not proof, of accuracy between them: the spread of the loads between
 methods is the honest measure of how much the answer depends on the choice.
@@ -19,6 +20,10 @@ from .errors import InputError
 from .fields import METHODS, make_field
 from .progress import Progress
 from .results import CAUTION
+
+#: Methods shown for comparison but never recommended for loads: the harmonic field from point values has
+#: no continuum limit (a point has zero capacity in 2-D), so its loads drift with the mesh (docs/methods.md).
+CROSS_CHECK_ONLY = ("harmonic",)
 
 #: Figures compared between methods (LoadResult properties).
 LOAD_FIGURES = ("CL", "CD", "CPM", "CLF", "CLR", "front_share", "lift_N", "drag_N", "pitch_moment_Nm",
@@ -101,8 +106,7 @@ def compare_methods(body, taps, methods=None, *, settings=None, q=None, ref_area
     for k in LOAD_FIGURES + ("loo_rms",):
         vals = [r[k] for r in rows if r[k] is not None]
         spread[k] = (max(vals) - min(vals)) if len(vals) > 1 else (0.0 if vals else None)
-    scored = [r for r in rows if r["loo_rms"] is not None]
-    best = min(scored, key=lambda r: r["loo_rms"])["method"] if scored else None
+    best = recommend(rows)
     return {
         "methods": rows,
         "spread": spread,
@@ -117,13 +121,28 @@ def compare_methods(body, taps, methods=None, *, settings=None, q=None, ref_area
     }
 
 
+def recommend(rows) -> str | None:
+    """The method with the lowest leave-one-out RMS among those meant for loads (not CROSS_CHECK_ONLY)."""
+    scored = [r for r in rows if r["loo_rms"] is not None and r["method"] not in CROSS_CHECK_ONLY]
+    return min(scored, key=lambda r: r["loo_rms"])["method"] if scored else None
+
+
 def summary(rows, spread, best) -> str:
-    """Two sentences: the recommendation and how far the loads move between methods."""
+    """Two or three sentences: the recommendation, how far the loads move between methods, and a note
+    on the cross-check methods shown."""
+    checks = [r for r in rows if r["method"] in CROSS_CHECK_ONLY]
+    note = ""
+    if checks:
+        names = ", ".join(r["method"] for r in checks)
+        note = (f" {names}: a bounded cross-check, never recommended for loads (its field tends to a constant "
+                "between taps as the mesh is refined; docs/methods.md).")
     if best is None:
-        return "No method gave a leave-one-out error; no recommendation."
+        return "No method meant for loads gave a leave-one-out error; no recommendation." + note
     b = next(r for r in rows if r["method"] == best)
-    s = (f"Recommended: {best} (lowest leave-one-out error at the taps, RMS {b['loo_rms']:.3g} "
-         f"{b['loo_unit']}).")
+    lower = [r["method"] for r in checks if r["loo_rms"] is not None and r["loo_rms"] < b["loo_rms"]]
+    s = (f"Recommended: {best} (lowest leave-one-out error at the taps among the load methods, RMS "
+         f"{b['loo_rms']:.3g} {b['loo_unit']}"
+         + (f"; {', '.join(lower)} scored lower but is not a load method" if lower else "") + ").")
     key = [k for k in ("CL", "CLF", "CLR") if spread.get(k) is not None]
     if key:
         parts = []
@@ -134,7 +153,7 @@ def summary(rows, spread, best) -> str:
         s += " Between methods " + ", ".join(parts) + "."
     elif spread.get("lift_N") is not None:
         s += f" Between methods the lift moves by {spread['lift_N']:.1f} N."
-    return s
+    return s + note
 
 
 def format_comparison(c: dict) -> str:

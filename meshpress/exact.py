@@ -15,6 +15,13 @@
   (Kutta-Joukowski), normal to the flow, which comes at the angle of attack
   to the x axis: the z-force is ``L cos(alpha)``.  Extruded along y and closed by flat end caps (which carry
   no lift), the 2D pressure is taken as the known truth on the 3D body.
+- Biharmonic interpolation on the unit sphere: the minimiser of ``int (Lap u)^2``
+  through given values at points is Wahba's spline (Wahba, SIAM J. Sci. Stat.
+  Comput. 2 (1981) 5-16), a constant plus a combination of the kernel
+  ``R(t) = 1/(4 pi) sum_{l>=1} (2l+1) / (l (l+1))^2 P_l(t)``; the series sums to
+  ``(1 - pi^2/6 + Li2((1 + t)/2)) / (4 pi)`` (derived: at t = 1 it telescopes to
+  1/(4 pi); checked against the series in the tests).  It is the continuum limit
+  of the ``biharmonic`` method on a sphere.
 """
 
 from __future__ import annotations
@@ -177,3 +184,56 @@ class Joukowski:
         tree = cKDTree(self.contour(th))
         _, i = tree.query(np.asarray(points, float)[:, [0, 2]])
         return self.cp(th[i])
+
+
+def sphere_spline_kernel(t):
+    """Wahba's order-2 spline kernel on the unit sphere, R(t) of the cosine t of the angle between two points.
+
+    ``R(t) = 1/(4 pi) sum_{l>=1} (2l+1)/(l(l+1))^2 P_l(t) = (1 - pi^2/6 + Li2((1+t)/2)) / (4 pi)``, with
+    ``Li2(z) = scipy.special.spence(1 - z)``.
+    """
+    from scipy.special import spence
+
+    t = np.clip(np.asarray(t, float), -1.0, 1.0)
+    return (1.0 - np.pi**2 / 6.0 + spence((1.0 - t) / 2.0)) / (4.0 * np.pi)
+
+
+def sphere_spline_kernel_series(t, terms=2000):
+    """The same kernel by its Legendre series (``terms`` terms; truncation error below 1/terms^2)."""
+    t = np.asarray(t, float)
+    p0, p1 = np.ones_like(t), t.copy()
+    out = 3.0 / 4.0 * p1
+    for l in range(1, terms):
+        p0, p1 = p1, ((2 * l + 1) * t * p1 - l * p0) / (l + 1)
+        n = l + 1
+        out = out + (2 * n + 1) / (n * (n + 1)) ** 2 * p1
+    return out / (4.0 * np.pi)
+
+
+def sphere_spline(points, values):
+    """Wahba's biharmonic spline on the unit sphere through ``values`` (k,) at unit vectors ``points`` (k, 3).
+
+    Returns
+    -------
+    callable
+        ``u(x)`` for unit vectors x (n, 3) (normalised inside), the minimiser of ``int (Lap u)^2`` over the
+        sphere with ``u(points) = values``.
+    """
+    y = np.asarray(points, float)
+    y = y / np.linalg.norm(y, axis=1, keepdims=True)
+    k = len(y)
+    A = np.zeros((k + 1, k + 1))
+    A[:k, :k] = sphere_spline_kernel(y @ y.T)
+    A[:k, k] = A[k, :k] = 1.0
+    z = np.linalg.solve(A, np.r_[np.asarray(values, float), 0.0])
+    c, a = z[:k], z[k]
+
+    def u(x):
+        x = np.asarray(x, float)
+        x = x / np.linalg.norm(x, axis=1, keepdims=True)
+        out = np.full(len(x), a)
+        for s in range(0, len(x), 20_000):
+            out[s:s + 20_000] += sphere_spline_kernel(x[s:s + 20_000] @ y.T) @ c
+        return out
+
+    return u

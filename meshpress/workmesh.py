@@ -10,6 +10,18 @@ Heckbert, SIGGRAPH 1997) and the field is carried back to every vertex of the
 full mesh by linear interpolation in the nearest working face.  Forces are
 always integrated on the full mesh.  ``scripts/bench_accuracy.py`` measures the
 effect on the loads (docs/accuracy.md).
+
+Quadric decimation keeps vertices where the *shape* bends and removes them
+where it is flat, and a mesh as given can be just as uneven (strips of long,
+thin triangles, fans of slivers closing a loft).  A pressure field varies over
+flat parts as much as over curved ones, and a method that solves a differential
+equation on the mesh (biharmonic, harmonic) is only as good as the mesh's
+coarsest part there.  Such a method asks for a copy whose edges are all at most
+``max_edge_ratio`` times the mean edge (the edge of an equilateral triangle of
+the copy's mean face area): after decimation, every longer edge is bisected
+(longest-edge bisection with conforming closure, Rivara, Int. J. Numer. Meth.
+Eng. 20 (1984) 745-756), which keeps the surface exactly and the smallest angles
+bounded.  ``scripts/bench_biharmonic_convergence.py`` measures the effect.
 """
 
 from __future__ import annotations
@@ -59,6 +71,75 @@ def simplify(vertices, faces, target_faces: int):
     return v[used], remap[f]
 
 
+def mean_edge(area: float, n_faces: int) -> float:
+    """Edge (m) of an equilateral triangle of the mean face area ``area / n_faces`` (area in m2)."""
+    return float(np.sqrt(4.0 * area / (np.sqrt(3.0) * max(int(n_faces), 1))))
+
+
+def refine_long_edges(vertices, faces, max_edge: float, max_rounds: int = 40):
+    """Bisect every edge longer than ``max_edge`` until none is left; the result is conforming.
+
+    Each round marks the edges longer than ``max_edge``, then, until no face
+    changes, the longest edge of every face with a marked edge (the closure that
+    keeps the refinement conforming and the angles bounded); a face is cut at
+    the midpoint of its longest edge, and each half again at the midpoint of
+    its other marked edge, if any (Rivara 1984).  New vertices lie on the old
+    faces, so the surface and its area are unchanged.
+
+    Parameters
+    ----------
+    vertices : (n, 3) float
+    faces : (m, 3) int
+    max_edge : float
+        Longest edge allowed, in the unit of ``vertices``.
+    max_rounds : int
+
+    Returns
+    -------
+    vertices : (n', 3) float
+        The input vertices first, in order, then the new midpoints.
+    faces : (m', 3) int
+        Wound as the faces they split.
+    """
+    v = np.asarray(vertices, float)
+    f = np.asarray(faces, np.int64)
+    for _ in range(max_rounds):
+        n = len(v)
+        a, b = f, np.roll(f, -1, axis=1)  # half-edge k runs f[:, k] -> f[:, k + 1]
+        length = np.linalg.norm(v[b] - v[a], axis=2)
+        if not (length > max_edge).any():
+            break
+        key = np.minimum(a, b).ravel() * n + np.maximum(a, b).ravel()
+        edges, eid = np.unique(key, return_inverse=True)
+        eid = eid.reshape(-1, 3)
+        # Longest edge of each face; ties (isosceles faces) go the same way in both faces of an edge.
+        k = np.argmax(length + 1e-9 * length.max() * (eid / len(edges)), axis=1)
+        rows = np.arange(len(f))
+        longest = eid[rows, k]
+        edge_len = np.zeros(len(edges))
+        edge_len[eid.ravel()] = length.ravel()
+        mark = edge_len > max_edge
+        while True:
+            need = mark[eid].any(axis=1) & ~mark[longest]
+            if not need.any():
+                break
+            mark[longest[need]] = True
+        mid = np.full(len(edges), -1, np.int64)
+        mid[mark] = n + np.arange(int(mark.sum()))
+        v = np.vstack([v, 0.5 * (v[edges[mark] // n] + v[edges[mark] % n])])
+        A, B, C = f[rows, k], f[rows, (k + 1) % 3], f[rows, (k + 2) % 3]
+        m0, m1, m2 = mid[longest], mid[eid[rows, (k + 1) % 3]], mid[eid[rows, (k + 2) % 3]]
+        cut = m0 >= 0
+        c2, k2 = cut & (m2 >= 0), cut & (m2 < 0)  # half (A, M0, C), its edge C-A cut too or not
+        c1, k1 = cut & (m1 >= 0), cut & (m1 < 0)  # half (M0, B, C), its edge B-C cut too or not
+        f = np.vstack([f[~cut],
+                       np.column_stack([A[k2], m0[k2], C[k2]]),
+                       np.column_stack([A[c2], m0[c2], m2[c2]]), np.column_stack([m0[c2], C[c2], m2[c2]]),
+                       np.column_stack([m0[k1], B[k1], C[k1]]),
+                       np.column_stack([m0[c1], B[c1], m1[c1]]), np.column_stack([m0[c1], m1[c1], C[c1]])])
+    return v, f
+
+
 def barycentric_map(points, vertices, faces) -> sparse.csr_matrix:
     """(k, n) sparse: linear interpolation at ``points`` (k, 3) from the vertices of the
     nearest face (by centroid) of the mesh ``vertices`` (n, 3), ``faces`` (m, 3).
@@ -88,6 +169,20 @@ def barycentric_map(points, vertices, faces) -> sparse.csr_matrix:
     return sparse.csr_matrix((w.ravel(), (rows, faces[fi].ravel())), shape=(len(points), len(vertices)))
 
 
+def _nearest_among(body, q, kq):
+    """Nearest points (k, 3) and their faces (k,) among the faces of the ``kq`` nearest centroids of the
+    points ``q`` (k, 3)."""
+    from trimesh.triangles import closest_point
+
+    kq = min(kq, body.n_faces)
+    _, idx = body.centroid_tree.query(q, k=kq)
+    idx = idx.reshape(len(q), kq)
+    cp = closest_point(body.triangles[idx.ravel()], np.repeat(q, kq, axis=0)).reshape(len(q), kq, 3)
+    j = np.argmin(np.linalg.norm(cp - q[:, None, :], axis=2), axis=1)
+    r = np.arange(len(q))
+    return cp[r, j], idx[r, j]
+
+
 class WorkMesh:
     """The surface the surface-aware methods solve on.
 
@@ -96,24 +191,42 @@ class WorkMesh:
     body : Body
         The working copy (the body itself when it is small enough).
     identity : bool
-        True when no simplification was needed.
+        True when the copy is the body itself (no simplification or refinement was needed).
+    simplified, refined : bool
+        Whether the copy was decimated, and whether long edges were then bisected.
+    max_edge : float or None
+        Longest edge allowed on the copy, m (None: no limit).
     to_full : (n_full_vertices, n_work_vertices) sparse
         Carries working-vertex values to the full mesh's vertices.
     """
 
-    def __init__(self, body, target_faces: int = TARGET_FACES):
+    def __init__(self, body, target_faces: int = TARGET_FACES, max_edge_ratio: float | None = None):
         from .body import Body
 
         self.full = weakref.ref(body)
         self.target_faces = int(target_faces)
-        self.identity = body.n_faces <= target_faces
+        self.simplified = body.n_faces > target_faces
+        if self.simplified:
+            v, f = simplify(body.vertices, body.faces, target_faces)
+        else:
+            v, f = body.vertices, body.faces
+        self.max_edge = None
+        n_given = len(v)
+        if max_edge_ratio:
+            self.max_edge = max_edge_ratio * mean_edge(body.area, len(f))
+            v, f = refine_long_edges(v, f, self.max_edge)
+        self.refined = len(v) > n_given
+        self.identity = not (self.simplified or self.refined)
         if self.identity:
             self._body = None  # the full body itself (held weakly, so the cache does not keep it alive)
             self.to_full = sparse.identity(len(body.vertices), format="csr")
         else:
-            v, f = simplify(body.vertices, body.faces, target_faces)
             self._body = Body(v, f, axles=body.axles)
-            self.to_full = barycentric_map(body.vertices, v, f)
+            if self.simplified:
+                self.to_full = barycentric_map(body.vertices, v, f)
+            else:  # the body's own vertices come first in the refined copy
+                n = len(body.vertices)
+                self.to_full = sparse.csr_matrix((np.ones(n), (np.arange(n), np.arange(n))), shape=(n, len(v)))
         self._distance = None
         self._tap_cache = {}
 
@@ -130,14 +243,32 @@ class WorkMesh:
             self._distance = SurfaceDistance(self.body.vertices, self.body.faces)
         return self._distance
 
-    def locate(self, points):
-        """Faces (k,) and barycentric coordinates (k, 3) of surface points on the working copy."""
+    def locate(self, points, exact: bool | None = None):
+        """Faces (k,) and barycentric coordinates (k, 3) of surface points on the working copy.
+
+        ``exact`` (default: for up to 2,000 points, such as taps): the nearest
+        point on the copy by the exhaustive search of
+        :func:`meshpress.projection.nearest_on_faces`.  Otherwise (many points on
+        the full surface, e.g. the integration clusters) the nearest point on the
+        faces of the 16 nearest centroids, found at once; where a thin face
+        whose centroid is farther is nearer still, the value comes from a face
+        that is nearly as near, and the field is continuous across faces.
+        """
         from trimesh.triangles import points_to_barycentric
 
         from .projection import nearest_on_faces
 
-        p, f, _ = nearest_on_faces(self.body, np.asarray(points, float).reshape(-1, 3))
-        return f, points_to_barycentric(self.body.triangles[f], p)
+        body = self.body
+        p = np.asarray(points, float).reshape(-1, 3)
+        if exact is None:
+            exact = len(p) <= 2000
+        if exact:
+            out_p, out_f, _ = nearest_on_faces(body, p)
+        else:
+            out_p, out_f = np.empty_like(p), np.empty(len(p), np.int64)
+            for s in range(0, len(p), 4000):  # blocks bound the memory of the candidate arrays
+                out_p[s:s + 4000], out_f[s:s + 4000] = _nearest_among(body, p[s:s + 4000], 16)
+        return out_f, points_to_barycentric(body.triangles[out_f], out_p)
 
     def tap_distances(self, points, *, progress=None, corners: int | None = None):
         """Surface distances from tap points (k, 3) to every working vertex, (k, n) m (cached).
@@ -182,9 +313,10 @@ class WorkMesh:
         return (np.asarray(values, float)[self.body.faces[f]] * b).sum(axis=1)
 
 
-def work_mesh(body, target_faces: int = TARGET_FACES) -> WorkMesh:
-    """The (cached) working copy of ``body`` at ``target_faces``."""
+def work_mesh(body, target_faces: int = TARGET_FACES, max_edge_ratio: float | None = None) -> WorkMesh:
+    """The (cached) working copy of ``body`` at ``target_faces`` (and ``max_edge_ratio``)."""
     per = _CACHE.setdefault(body, {})
-    if target_faces not in per:
-        per[target_faces] = WorkMesh(body, target_faces)
-    return per[target_faces]
+    key = (int(target_faces), max_edge_ratio or None)
+    if key not in per:
+        per[key] = WorkMesh(body, target_faces, max_edge_ratio)
+    return per[key]

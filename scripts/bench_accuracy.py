@@ -29,7 +29,7 @@ from meshpress import exact, samples
 from meshpress.analysis import compute_loads
 from meshpress.body import Axles, Body
 from meshpress.compare import compare_methods
-from meshpress.fields import make_field
+from meshpress.fields import Field, make_field
 from meshpress.projection import ProjectedTaps, nearest_on_faces
 
 ROOT = Path(__file__).resolve().parent.parent
@@ -101,7 +101,7 @@ class _Given:
     """A 'field' that hands back given face values (the truth integrated on the mesh)."""
 
     name = "truth"
-    at_points = __import__("meshpress.fields", fromlist=["Field"]).Field.at_points  # face values only
+    at_points = Field.at_points  # face values only: compute_loads integrates face by face
 
     def __init__(self, v):
         self.v = v

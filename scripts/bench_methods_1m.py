@@ -7,8 +7,9 @@
    back to the full mesh (what every surface method's output goes through) against the exact field on the
    full mesh; and one method (biharmonic) run on the full 80k-face body against its 40k and 20k copies.
 
-Run: ``python scripts/bench_methods_1m.py`` (a few minutes on 2 cores); ``--resolution`` for the mesh
-dependence check (biharmonic and nearest at three resolutions, full mesh vs copy).
+Run: ``python scripts/bench_methods_1m.py`` (a few minutes on 2 cores); ``--methods a,b`` for the speed
+table of some methods only; ``--resolution`` for the mesh dependence check (biharmonic with and without
+the edge bound, and nearest, at three resolutions, full mesh vs copy).
 """
 
 from __future__ import annotations
@@ -77,7 +78,7 @@ def loads_of(body, values, ref):
     return np.array([cl, cl / 2 + cpm, cl / 2 - cpm])
 
 
-def main():
+def main(methods=METHODS, copies=True):
     from meshpress.workmesh import WorkMesh
 
     v, f = make_body_arrays(1250, 400)
@@ -95,7 +96,7 @@ def main():
     print(f"truth on the full mesh: CL {lt[0]:+.4f} CLF {lt[1]:+.4f} CLR {lt[2]:+.4f}")
     print("\n| method | wall s | CPU s | of which method (wall) s | peak GB | CL | CLF | CLR |\n"
           "|---|---|---|---|---|---|---|---|")
-    for m in METHODS:
+    for m in methods:
         out = subprocess.run([sys.executable, __file__, "--child", m], capture_output=True, text=True)
         if out.returncode:
             print(f"| {m} | failed: {out.stderr.strip().splitlines()[-1]} |")
@@ -104,6 +105,9 @@ def main():
         print(f"| {m} | {r['total_s']:.1f} | {r['cpu_s']:.1f} | {r['method_s']:.1f} | {r['peak_GB']:.2f} | {r['CL']:+.4f} | "
               f"{r['CLF']:+.4f} | {r['CLR']:+.4f} |", flush=True)
 
+    print(f"(load average {open('/proc/loadavg').read().split()[0]} on 2 cores)")
+    if not copies:
+        return
     print("\nworking copy, exact field through the copy (1M-face body):")
     print("| copy faces | CL | CLF | CLR | lift change % | max coefficient change |\n|---|---|---|---|---|---|")
     for target in (160_000, 80_000, 40_000, 20_000):
@@ -160,11 +164,15 @@ def resolution():
     print("| body faces | method | solved on | CL | CLF | CLR | wall s |\n|---|---|---|---|---|---|---|")
     for b in bodies.values():
         taps = taps_at(b, pts, lambda p, nn: samples.car_cp(p + [MID, 0, 0], nn))
-        for m in ("biharmonic", "nearest"):
+        for m, st in (("biharmonic", {"max_edge_ratio": None}), ("biharmonic", {}), ("nearest", {})):
             for wf in (400_000, 80_000):
                 t0 = time.perf_counter()
-                r = compute_loads(b, taps, make_field(m, work_faces=wf), ref_area=2.0)
+                field = make_field(m, work_faces=wf, **st)
+                r = compute_loads(b, taps, field, ref_area=2.0)
                 on = "full" if wf >= b.n_faces else f"{wf:,} copy"
+                if st:
+                    m = "biharmonic, as before (no edge bound)"
+                on += f" ({field.work_.body.n_faces:,} faces solved)"
                 print(f"| {b.n_faces:,} | {m} | {on} | {r.CL:+.4f} | {r.CLF:+.4f} | {r.CLR:+.4f} | "
                       f"{time.perf_counter() - t0:.1f} |", flush=True)
 
@@ -174,5 +182,7 @@ if __name__ == "__main__":
         child(sys.argv[2])
     elif len(sys.argv) > 1 and sys.argv[1] == "--resolution":
         resolution()
+    elif len(sys.argv) > 2 and sys.argv[1] == "--methods":
+        main(sys.argv[2].split(","), copies=False)
     else:
         main()

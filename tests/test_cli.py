@@ -141,3 +141,23 @@ def test_demo_runs(tmp_path):
     assert "INVENTED DEMO DATA" in r.stdout
     d = json.loads((tmp_path / "demo" / "loads.json").read_text())
     assert d["CL"] is not None and d["front_share"] is not None
+
+
+@pytest.mark.slow
+def test_compare_single_method_option(tmp_path, sample):
+    # `compare --method NAME` runs that one method, as `--methods NAME` does, and gives the loads that
+    # `loads --method NAME` gives for the same inputs (the same field on the same taps).
+    common = [*sample, *SAMPLE, "--q", "400", "--quiet"]
+    one, many, ref = tmp_path / "one.json", tmp_path / "many.json", tmp_path / "loads.json"
+    r = run_cli("compare", *common, "--method", "nearest", "--json", one)
+    assert r.returncode == 0, r.stderr
+    assert run_cli("compare", *common, "--methods", "nearest", "--json", many).returncode == 0
+    assert run_cli("loads", *common, "--method", "nearest", "--json", ref).returncode == 0
+    a, b, c = (json.loads(p.read_text()) for p in (one, many, ref))
+    assert [m["method"] for m in a["methods"]] == ["nearest"] == [m["method"] for m in b["methods"]]
+    assert a["methods"][0]["CL"] == pytest.approx(b["methods"][0]["CL"], rel=1e-12)
+    assert a["methods"][0]["CL"] == pytest.approx(c["CL"], rel=1e-12)
+    both = run_cli("compare", *common, "--method", "nearest", "--methods", "rbf,nearest")
+    assert both.returncode == 2 and "not both" in both.stderr and "Traceback" not in both.stderr
+    bad = run_cli("compare", *common, "--method", "magic")
+    assert bad.returncode == 2 and "--method: 'magic'" in bad.stderr

@@ -16,7 +16,7 @@ def add_parser(sub):
                    help="comma-separated methods (default all: rbf,geodesic,biharmonic,harmonic,nearest,strip)")
     add_body_options(p)
     add_flow_options(p)
-    add_field_options(p)
+    add_field_options(p, method_help="one method only: the same as --methods NAME")
     p.add_argument("--json", metavar="OUT", help="write the comparison as JSON to OUT")
     p.add_argument("--picture", metavar="PNG", help="write the methods' fields side by side to PNG")
     p.add_argument("--camera", default="three-quarter",
@@ -36,11 +36,7 @@ def run(args) -> int:
     from ..results import check_not_input
 
     progress = Progress(enabled=False if args.quiet else None)
-    # --method (shared with `loads`) is not used here: --methods picks the methods.
-    methods = [m.strip() for m in args.methods.split(",") if m.strip()] if args.methods else list(METHODS)
-    for m in methods:
-        if m not in METHODS:
-            raise InputError(f"--methods: {m!r} is not one of: {', '.join(METHODS)}")
+    methods = _methods(args, METHODS)
     q = resolve_q(args.q, speed_mps(args.speed), args.air_density)
     for out in (args.json, args.picture):
         if out:
@@ -65,6 +61,27 @@ def run(args) -> int:
         write_json(c, args.json, protect=(args.mesh, args.taps))
         print(f"\n  wrote {args.json}")
     return 0
+
+
+def _methods(args, known):
+    """The methods to run, from ``--methods LIST`` or ``--method NAME`` (one of them; default all)."""
+    from ..errors import InputError
+
+    if args.method is not None and args.methods is not None:
+        raise InputError(f"give either --methods LIST or --method NAME, not both (got --methods {args.methods!r} "
+                         f"and --method {args.method!r})")
+    if args.method is not None:
+        opt, methods = "--method", [args.method.strip()]
+    elif args.methods is not None:
+        opt, methods = "--methods", [m.strip() for m in args.methods.split(",") if m.strip()]
+        if not methods:
+            raise InputError("--methods: the list is empty")
+    else:
+        return list(known)
+    for m in methods:
+        if m not in known:
+            raise InputError(f"{opt}: {m!r} is not one of: {', '.join(known)}")
+    return methods
 
 
 def _picture(path, body, taps, fields, c, q, args, progress):

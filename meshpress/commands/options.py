@@ -36,14 +36,19 @@ def add_flow_options(p):
     g.add_argument("--ref-area", type=float, metavar="A", help="reference area, m2 (default: frontal area)")
 
 
-def add_field_options(p):
+def add_field_options(p, method_help=None):
+    """Field options; ``method_help`` replaces the help of ``--method`` and makes its default None (so a
+    command can tell whether it was given)."""
     from ..fields import METHODS
     from ..fields.bounds import EXTRAPOLATION
     from ..fields.kernels import GEODESIC_KERNELS
     from ..fields.rbf import KERNELS
 
     g = p.add_argument_group("pressure field (docs/methods.md)")
-    g.add_argument("--method", default="rbf", help="field method: " + ", ".join(METHODS) + " (default rbf)")
+    if method_help is None:
+        g.add_argument("--method", default="rbf", help="field method: " + ", ".join(METHODS) + " (default rbf)")
+    else:
+        g.add_argument("--method", default=None, metavar="NAME", help=method_help)
     g.add_argument("--kernel", default=None, help="RBF kernel: " + ", ".join(KERNELS)
                    + " (default thin_plate_spline); geodesic: " + ", ".join(GEODESIC_KERNELS) + " (default matern52); "
                    "kriging: as --kernel-gp of 'meshpress uncertainty' (default exponential)")

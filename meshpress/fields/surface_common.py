@@ -19,10 +19,15 @@ def check_common(field):
 
 def prepare(field, body, taps, progress):
     """Working copy, tap locations on it and tap -> vertex surface distances (k, n_work)."""
-    wm = work_mesh(body, field.work_faces)
-    if not wm.identity:
-        note = (f"solved on a simplified copy of the surface ({wm.body.n_faces} of {body.n_faces} faces; "
+    wm = work_mesh(body, field.work_faces, getattr(field, "max_edge_ratio", None))
+    if wm.simplified:
+        how = f", then edges over {1000 * wm.max_edge:.0f} mm split" if wm.refined else ""
+        note = (f"solved on a simplified copy of the surface ({wm.body.n_faces} faces from {body.n_faces}{how}; "
                 "loads integrated on the full mesh)")
+        field.warnings_.append(note)
+    elif wm.refined:
+        note = (f"solved on a refined copy of the surface (edges over {1000 * wm.max_edge:.0f} mm split: "
+                f"{wm.body.n_faces} faces from {body.n_faces}; loads integrated on the mesh as given)")
         field.warnings_.append(note)
     f, b = wm.locate(taps.points)
     return wm, f, b
