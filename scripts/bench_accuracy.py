@@ -33,7 +33,7 @@ from meshpress.fields import Field, make_field
 from meshpress.projection import ProjectedTaps, nearest_on_faces
 
 ROOT = Path(__file__).resolve().parent.parent
-METHODS = ["rbf", "geodesic", "biharmonic", "harmonic", "nearest", "strip"]
+METHODS = ["rbf", "geodesic", "biharmonic", "harmonic", "nearest", "strip", "kriging"]
 
 
 def taps_at(body, pts, truth_fn):
