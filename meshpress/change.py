@@ -34,7 +34,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .errors import InputError
-from .uncertainty import K95, Band, Measurement, compute_uncertainty, difference_u
+from .uncertainty import K95, Band, Measurement, compute_uncertainty, difference_u, find_band
 
 #: Lift figures whose minus sign reads as downforce in a sentence.
 _DOWNFORCE = {"CL": "downforce coefficient", "CLF": "front downforce coefficient",
@@ -145,10 +145,7 @@ class ChangeResult:
     difference: object = None
 
     def band(self, name) -> Band:
-        for b in self.bands:
-            if b.name == name:
-                return b
-        raise KeyError(name)
+        return find_band(self.bands, name)
 
     def own_u(self, which, name):
         """Standard uncertainty of ``name`` in one configuration's own band (None when it has none)."""

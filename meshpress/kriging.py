@@ -90,6 +90,11 @@ def spectral_density(lam: np.ndarray, length_scale: float, nu: float) -> np.ndar
     return (2.0 * nu / length_scale**2 + lam) ** (-nu - 1.0)
 
 
+def kernel_names(kernel: str) -> list:
+    """The candidate kernels a ``kernel`` argument names: ``"auto"``, one name, or several comma separated."""
+    return list(AUTO_KERNELS) if kernel == "auto" else [k.strip() for k in kernel.split(",")]
+
+
 class SurfaceGP:
     """Kriging on a set of nodes (carrier vertices) along a surface.
 
@@ -139,7 +144,7 @@ class SurfaceGP:
     def __init__(self, distance, *, kernel: str = "exponential", spectrum=None, length_scale=None, variance=None,
                  nugget=None, mean_variance=None, normals=None, trend_variance=None):
         self.distance = np.asarray(distance, float)
-        names = list(AUTO_KERNELS) if kernel == "auto" else [k.strip() for k in kernel.split(",")]
+        names = kernel_names(kernel)
         for k in names:
             if k not in KERNELS:
                 raise InputError(f"kernel {k!r} is not one of: auto, {', '.join(KERNELS)}")
@@ -154,6 +159,27 @@ class SurfaceGP:
         self.normals = None if normals is None else np.asarray(normals, float)
         self.trend_variance = trend_variance
         self.mean_variance = mean_variance
+
+    @classmethod
+    def on_carrier(cls, carrier, *, kernel: str = "exponential", trend: str | None = None, **params):
+        """A model on a :class:`~meshpress.patches.Carrier`: its distances, and its spectrum and normals when
+        ``kernel`` and ``trend`` need them.
+
+        Parameters
+        ----------
+        carrier : Carrier
+        kernel : str
+            As for the constructor.
+        trend : {None, "normal"}
+            ``"normal"`` passes the carrier's vertex normals (a normal trend).
+        **params
+            Further constructor arguments (``length_scale`` and the others).
+        """
+        if trend not in (None, "normal"):
+            raise InputError(f"kriging trend must be 'normal' or none, got {trend!r}")
+        needs = any(k in SPECTRAL_KERNELS for k in kernel_names(kernel))
+        return cls(carrier.distance, kernel=kernel, spectrum=carrier.spectrum() if needs else None,
+                   normals=carrier.normals if trend == "normal" else None, **params)
 
     # ------------------------------------------------------------------ fit
     def fit(self, tap_matrix, y, noise_var=None, *, length_bounds=None):

@@ -202,8 +202,7 @@ def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrie
     a = carrier.fine_weights(G)
     n_taps = 0 if taps is None else len(taps)
     if n_taps >= 3:
-        spectrum = carrier.spectrum() if kernel == "auto" or "lb-" in kernel else None
-        gp = SurfaceGP(carrier.distance, kernel=kernel, spectrum=spectrum, length_scale=length_scale)
+        gp = SurfaceGP.on_carrier(carrier, kernel=kernel, length_scale=length_scale)
         gp.fit(carrier.points_matrix(taps.points), taps.values)
         cov = gp.posterior_cov()
         noise = gp.nugget_

@@ -42,8 +42,6 @@ COMPARE_KEYS = {"base", "other"}
 UNCERTAINTY_KEYS = {"bands", "patches", "kernel", "sensor_accuracy", "full_scale", "error_correlation"}
 REFERENCE_KEYS = {"port", "cp", "column"}
 FORMATS = ("auto", "wide", "long")
-# the kriging correlations (as 'meshpress uncertainty --kernel-gp'; a test keeps them equal to kriging.KERNELS)
-GP_KERNELS = ("auto", "exponential", "matern32", "lb-matern12", "lb-matern32", "lb-matern52", "lb-heat")
 
 
 @dataclass(frozen=True)
@@ -511,8 +509,10 @@ def _bands(cx, d) -> BandSettings:
     if isinstance(patches, bool) or not isinstance(patches, int) or patches < 50:
         raise cx.err(f"{where}.patches", f"{patches!r} must be a whole number >= 50")
     kernel = _string(cx, d, "kernel", where, default="auto")
-    if kernel not in GP_KERNELS:
-        raise cx.err(f"{where}.kernel", f"{kernel!r} is not one of: {', '.join(GP_KERNELS)}")
+    from .kriging import KERNELS  # the kriging correlations, as 'meshpress uncertainty --kernel-gp'
+
+    if kernel not in ("auto",) + KERNELS:
+        raise cx.err(f"{where}.kernel", f"{kernel!r} is not one of: {', '.join(('auto',) + KERNELS)}")
     sensor = 0.0
     if "sensor_accuracy" in d:
         key = f"{where}.sensor_accuracy"

@@ -298,6 +298,14 @@ class Band:
         return self.value + K95 * self.u
 
 
+def find_band(bands, name) -> Band:
+    """The band of figure ``name`` in a list of bands (KeyError when it has none)."""
+    for b in bands:
+        if b.name == name:
+            return b
+    raise KeyError(name)
+
+
 @dataclass
 class UncertaintyResult:
     """Bands of every figure, plus the per-face map for a 3D view.
@@ -325,10 +333,7 @@ class UncertaintyResult:
     tap_weights: np.ndarray | None = None
 
     def band(self, name) -> Band:
-        for b in self.bands:
-            if b.name == name:
-                return b
-        raise KeyError(name)
+        return find_band(self.bands, name)
 
     def importance(self, name) -> np.ndarray:
         """(m,) float: posterior sd x |face weight| in figure ``name``: where unknown pressure matters most."""
@@ -413,9 +418,7 @@ def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | Non
         carrier = Carrier(body, n_patches, progress=progress)
     a = carrier.fine_weights(G)
     T = carrier.points_matrix(taps.points)
-    spectrum = carrier.spectrum() if kernel == "auto" or "lb-" in kernel else None
-    gp = SurfaceGP(carrier.distance, kernel=kernel, spectrum=spectrum, length_scale=length_scale,
-                   normals=carrier.normals if trend == "normal" else None)
+    gp = SurfaceGP.on_carrier(carrier, kernel=kernel, trend=trend, length_scale=length_scale)
     gp.fit(T, taps.values, meas.tap_u**2)
     mean, var, Wk = gp.figures(a)
     closure = G.sum(axis=0)

@@ -86,10 +86,7 @@ def test_auto_kernel_follows_the_field_smoothness(carrier):
 
 
 def test_cli_kernel_choices_match_the_model():
-    from meshpress.commands.uncertainty import KRIGING_KERNELS
+    from meshpress.commands.options import KRIGING_KERNELS
     from meshpress.kriging import KERNELS
 
     assert KRIGING_KERNELS == KERNELS
-    from meshpress.sheet import GP_KERNELS
-
-    assert GP_KERNELS == ("auto",) + KERNELS

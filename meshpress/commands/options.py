@@ -36,6 +36,17 @@ def add_flow_options(p):
     g.add_argument("--ref-area", type=float, metavar="A", help="reference area, m2 (default: frontal area)")
 
 
+# Literal copy of meshpress.kriging.KERNELS (importing it would load scipy just to print --help; a test
+# keeps the two equal).
+KRIGING_KERNELS = ("exponential", "matern32", "lb-matern12", "lb-matern32", "lb-matern52", "lb-heat")
+
+
+def add_gp_kernel_option(g, default: str, about: str):
+    """``--kernel-gp``: the kriging correlation of the bands (uncertainty) or of the planner (plan)."""
+    g.add_argument("--kernel-gp", default=default, choices=("auto",) + KRIGING_KERNELS,
+                   help=f"kriging correlation along the surface (default {default}: {about})")
+
+
 def add_field_options(p, method_help=None):
     """Field options; ``method_help`` replaces the help of ``--method`` and makes its default None (so a
     command can tell whether it was given)."""

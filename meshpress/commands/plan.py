@@ -2,8 +2,7 @@
 
 from __future__ import annotations
 
-from .uncertainty import KRIGING_KERNELS
-from .options import add_body_options, add_flow_options, speed_mps, load_inputs
+from .options import add_body_options, add_flow_options, add_gp_kernel_option, load_inputs, speed_mps
 
 PLAN_FIGURES = ("CL", "CD", "CS", "CLF", "CLR", "CPM")
 
@@ -30,9 +29,7 @@ def add_parser(sub):
     p.add_argument("--length-scale", default=None, metavar="L",
                    help="kriging length scale when it cannot be fitted (fewer than 3 taps), e.g. '0.8 m'")
     p.add_argument("--patches", type=int, default=2500, metavar="N", help="carrier patches (default 2500)")
-    p.add_argument("--kernel-gp", default="exponential", choices=("auto",) + KRIGING_KERNELS,
-                   help="kriging correlation along the surface (default exponential; see meshpress uncertainty "
-                        "--help and docs/uncertainty.md)")
+    add_gp_kernel_option(p, "exponential", "see meshpress uncertainty --help and docs/uncertainty.md")
     p.add_argument("--out", default="planned_taps.csv", help="CSV of the new taps, mesh coordinates and unit "
                                                              "(default planned_taps.csv)")
     p.add_argument("--picture", metavar="PNG", help="write a picture of the plan")

@@ -9,11 +9,8 @@ change, in which the errors the two runs share cancel (meshpress.change).
 
 from __future__ import annotations
 
-# Literal copy of meshpress.kriging.KERNELS (importing it would load scipy just to print --help; a test
-# keeps the two equal).
-KRIGING_KERNELS = ("exponential", "matern32", "lb-matern12", "lb-matern32", "lb-matern52", "lb-heat")
-
-from .options import add_body_options, add_field_options, add_flow_options, method_settings, speed_mps, load_inputs
+from .options import (add_body_options, add_field_options, add_flow_options, add_gp_kernel_option, load_inputs,
+                      method_settings, speed_mps)
 
 U_COLUMNS = ("u", "p_u", "cp_u", "sem", "p_sem", "cp_sem")
 
@@ -43,9 +40,8 @@ def add_parser(sub):
                    help="standard uncertainty of the reference pressure, taps' unit")
     g.add_argument("--patches", type=int, default=2500, metavar="N", help="carrier patches for the covariance "
                                                                         "(default 2500)")
-    g.add_argument("--kernel-gp", default="auto", choices=("auto",) + KRIGING_KERNELS,
-                   help="kriging correlation along the surface (default auto: the best marginal likelihood among "
-                        "exponential and the Laplace-Beltrami Matérn 1/2, 3/2, 5/2 and heat kernels)")
+    add_gp_kernel_option(g, "auto", "the best marginal likelihood among exponential and the Laplace-Beltrami "
+                                    "Matérn 1/2, 3/2, 5/2 and heat kernels")
     c = p.add_argument_group("change from a baseline (docs/uncertainty.md)")
     c.add_argument("--baseline", metavar="BASE_TAPS",
                    help="tap table of the baseline configuration on the same taps: every figure's change "

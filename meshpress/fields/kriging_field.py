@@ -58,12 +58,10 @@ class KrigingField(BoundedMixin, Field):
         if len(taps) < 3:
             raise InputError(f"the kriging method needs at least 3 taps, got {len(taps)}")
         check_extrapolation(self.extrapolation, self.far_value)
-        if self.trend not in (None, "normal"):
+        if self.trend not in (None, "normal"):  # before the carrier, which takes seconds
             raise InputError(f"kriging trend must be 'normal' or none, got {self.trend!r}")
         carrier = Carrier(body, self.patches, progress=progress)
-        spectrum = carrier.spectrum() if self.kernel == "auto" or "lb-" in self.kernel else None
-        gp = SurfaceGP(carrier.distance, kernel=self.kernel, spectrum=spectrum,
-                       normals=carrier.normals if self.trend == "normal" else None)
+        gp = SurfaceGP.on_carrier(carrier, kernel=self.kernel, trend=self.trend)
         gp.fit(carrier.points_matrix(taps.points), taps.values)
         self.carrier_, self.gp_ = carrier, gp
         self.node_values_ = gp.node_mean()
