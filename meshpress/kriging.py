@@ -42,6 +42,14 @@ Fit.  ``s``, ``l`` and the nugget (at most NUGGET_MAX of ``s^2``) maximise the m
 (Rasmussen and Williams eq. 2.30), by L-BFGS-B on their logarithms from a few
 starting length scales.
 
+Regions.  With ``groups`` (a region label per node, :mod:`meshpress.regions`) the
+correlation and the constant mean are multiplied by the indicator "same
+region", ``K = (tau^2 + s^2 R) o B`` with ``B_ij = [g_i = g_j]``: the regions
+are independent fields with their own means, as the ``+regions`` interpolation
+methods treat them.  ``B`` is positive semi-definite, so ``K`` stays so (Schur
+product theorem; Horn and Johnson, Matrix Analysis, thm. 7.5.3).  Each tap is
+read from the nodes of its main node's region only.
+
 Figures.  Every load figure is a linear functional ``a^T f`` of the field, so
 its posterior is Gaussian with mean ``c^T S^-1 y`` and variance
 ``a^T K a - c^T S^-1 c`` where ``c = T K a`` and ``S = T K T^T + N`` (Bayesian
@@ -125,6 +133,9 @@ class SurfaceGP:
         (universal kriging on the normal; ``trend_variance_``).
     trend_variance : float, optional
         Fix ``t^2`` (value unit^2) instead of fitting it.
+    groups : (n_c,) int, optional
+        Region of each node: no correlation, and separate means, across
+        regions.
 
     Attributes (after fit)
     ----------------------
@@ -142,8 +153,11 @@ class SurfaceGP:
     """
 
     def __init__(self, distance, *, kernel: str = "exponential", spectrum=None, length_scale=None, variance=None,
-                 nugget=None, mean_variance=None, normals=None, trend_variance=None):
+                 nugget=None, mean_variance=None, normals=None, trend_variance=None, groups=None):
         self.distance = np.asarray(distance, float)
+        self.groups = None if groups is None else np.asarray(groups).ravel()
+        if self.groups is not None and len(self.groups) != len(self.distance):
+            raise InputError(f"{len(self.groups)} node regions for {len(self.distance)} nodes")
         names = kernel_names(kernel)
         for k in names:
             if k not in KERNELS:
@@ -161,7 +175,7 @@ class SurfaceGP:
         self.mean_variance = mean_variance
 
     @classmethod
-    def on_carrier(cls, carrier, *, kernel: str = "exponential", trend: str | None = None, **params):
+    def on_carrier(cls, carrier, *, kernel: str = "exponential", trend: str | None = None, groups=None, **params):
         """A model on a :class:`~meshpress.patches.Carrier`: its distances, and its spectrum and normals when
         ``kernel`` and ``trend`` need them.
 
@@ -172,6 +186,8 @@ class SurfaceGP:
             As for the constructor.
         trend : {None, "normal"}
             ``"normal"`` passes the carrier's vertex normals (a normal trend).
+        groups : (n_c,) int, optional
+            Region of each carrier vertex (:meth:`~meshpress.patches.Carrier.node_regions`).
         **params
             Further constructor arguments (``length_scale`` and the others).
         """
@@ -179,7 +195,7 @@ class SurfaceGP:
             raise InputError(f"kriging trend must be 'normal' or none, got {trend!r}")
         needs = any(k in SPECTRAL_KERNELS for k in kernel_names(kernel))
         return cls(carrier.distance, kernel=kernel, spectrum=carrier.spectrum() if needs else None,
-                   normals=carrier.normals if trend == "normal" else None, **params)
+                   normals=carrier.normals if trend == "normal" else None, groups=groups, **params)
 
     # ------------------------------------------------------------------ fit
     def fit(self, tap_matrix, y, noise_var=None, *, length_bounds=None):
@@ -204,6 +220,11 @@ class SurfaceGP:
         n = len(y)
         if T.shape[0] != n:
             raise InputError(f"tap_matrix has {T.shape[0]} rows for {n} values")
+        # Same-region indicators: among taps (n, n) and taps to nodes (n, n_c); all ones without regions.
+        self.tap_groups_ = None
+        if self.groups is not None:
+            T = _snap_to_groups(T, self.groups)
+            self.tap_groups_ = self.groups[np.asarray(T.argmax(axis=1)).ravel()]
         nv = np.zeros(n) if noise_var is None else np.broadcast_to(np.asarray(noise_var, float), (n,)).copy()
         self.T_, self.y_, self.noise_var_ = T, y, nv
         self.cols_ = np.unique(T.indices)
@@ -291,6 +312,7 @@ class SurfaceGP:
                   "nug": np.log([1e-8, NUGGET_MAX]), "tn": np.log([1e-2 * scale**2, 1e2 * scale**2])}
         free = [k for k in ("l", "s2", "nug", "tn") if fixed[k] is None]
         NN = None if self.TN_ is None else self.TN_ @ self.TN_.T
+        Btt = self._tap_mask()
 
         def unpack(theta):
             p = dict(fixed)
@@ -304,7 +326,8 @@ class SurfaceGP:
             """Negative log marginal likelihood (R&W eq. 2.30) and its gradient in the log parameters (eq. 5.9)."""
             p = unpack(theta)
             R, dR = corr(p["l"])
-            S = self.mean_variance_ + p["s2"] * R + np.diag(nv + p["nug"])
+            R, dR = R * Btt, dR * Btt
+            S = self.mean_variance_ * Btt + p["s2"] * R + np.diag(nv + p["nug"])
             if p["tn"]:
                 S = S + p["tn"] * NN
             try:
@@ -364,8 +387,9 @@ class SurfaceGP:
 
     def log_marginal_likelihood(self, length_scale, variance, nugget) -> float:
         """Log marginal likelihood of the fitted taps at the given hyperparameters (fitted kernel)."""
-        R = self._tap_corr_fn(self.kernel_, self.T_)(length_scale)[0]
-        S = self.mean_variance_ + variance * R + np.diag(self.noise_var_ + nugget)
+        Btt = self._tap_mask()
+        R = self._tap_corr_fn(self.kernel_, self.T_)(length_scale)[0] * Btt
+        S = self.mean_variance_ * Btt + variance * R + np.diag(self.noise_var_ + nugget)
         c = sla.cho_factor(S, lower=True)
         a = sla.cho_solve(c, self.y_)
         return float(-0.5 * self.y_ @ a - np.log(np.diag(c[0])).sum() - 0.5 * len(self.y_) * np.log(2 * np.pi))
@@ -380,7 +404,9 @@ class SurfaceGP:
             self._phi, self._g = phi, s2 * g * (area / g.sum())
             self._K = None  # built on demand: (n_c, n_c) costs n_c^3
             P = np.asarray(self.T_ @ phi)
-            TK = tau2 + (P * self._g) @ phi.T  # rows of T sum to 1, so T (tau^2 1 1^T) = tau^2 1 1^T
+            # Rows of T sum to 1, so T (tau^2 1 1^T) = tau^2 1 1^T; with regions each tap reads one region's
+            # nodes only, so T (A o B) = (T A) o B_tap.
+            TK = (tau2 + (P * self._g) @ phi.T) * self._node_mask()
         else:
             R = kernel(self.distance / self.length_scale_, self.kernel_)
             # Smallest diagonal shift (powers of ten) that lets the Cholesky factorisation through: it bounds the
@@ -395,6 +421,8 @@ class SurfaceGP:
                 R = R + shift * np.eye(len(R))
                 self.clipped_ = shift
             self._K = tau2 + s2 * R
+            if self.groups is not None:
+                self._K *= self.groups[:, None] == self.groups[None, :]
             if self.trend_variance_:
                 self._K += self.trend_variance_ * (self.normals @ self.normals.T)
             TK = np.asarray(self.T_ @ self._K)  # (n, n_c)
@@ -417,6 +445,16 @@ class SurfaceGP:
             raise np.linalg.LinAlgError("the taps' covariance is not positive definite")
         self.jitter_ = jitter
 
+    def _tap_mask(self):
+        """(n, n) float same-region indicator among taps, or 1.0 without regions."""
+        g = self.tap_groups_
+        return 1.0 if g is None else (g[:, None] == g[None, :]) * 1.0
+
+    def _node_mask(self):
+        """(n, n_c) float same-region indicator from taps to nodes, or 1.0 without regions."""
+        g = self.tap_groups_
+        return 1.0 if g is None else (g[:, None] == self.groups[None, :]) * 1.0
+
     # ------------------------------------------------------- prior pieces
     @property
     def K_(self) -> np.ndarray:
@@ -424,6 +462,8 @@ class SurfaceGP:
         self._check()
         if self._K is None:
             self._K = self.mean_variance_ + (self._phi * self._g) @ self._phi.T
+            if self.groups is not None:
+                self._K *= self.groups[:, None] == self.groups[None, :]
             if self.trend_variance_:
                 self._K += self.trend_variance_ * (self.normals @ self.normals.T)
         return self._K
@@ -431,7 +471,14 @@ class SurfaceGP:
     def _K_dot(self, a):
         if self._K is not None:
             return self._K @ a
-        out = self.mean_variance_ * a.sum(axis=0, keepdims=True) + self._phi @ (self._g[:, None] * (self._phi.T @ a))
+        if self.groups is None:
+            out = self.mean_variance_ * a.sum(axis=0, keepdims=True) + self._phi @ (self._g[:, None] * (self._phi.T @ a))
+        else:  # (A o B) a = sum over regions r of 1_r o (A a_r), a_r = a outside r set to 0
+            out = np.zeros_like(a)
+            for r in np.unique(self.groups):
+                m = self.groups == r
+                pa = self._phi[m].T @ a[m]
+                out[m] = self.mean_variance_ * a[m].sum(axis=0, keepdims=True) + self._phi[m] @ (self._g[:, None] * pa)
         if self.trend_variance_:
             out = out + self.trend_variance_ * (self.normals @ (self.normals.T @ a))
         return out
@@ -491,5 +538,19 @@ class SurfaceGP:
 
     def describe(self) -> str:
         trend = f", normal trend sd {np.sqrt(self.trend_variance_):.3g}" if self.trend_variance_ else ""
+        regions = "" if self.groups is None else f", {len(np.unique(self.groups))} independent regions"
         return (f"kriging ({self.kernel_} along the surface, length {self.length_scale_:.3g} m, "
-                f"sd {np.sqrt(self.variance_):.3g}, nugget sd {np.sqrt(self.nugget_):.3g}{trend})")
+                f"sd {np.sqrt(self.variance_):.3g}, nugget sd {np.sqrt(self.nugget_):.3g}{trend}{regions})")
+
+
+def _snap_to_groups(T, groups):
+    """Tap rows (n, n_c) restricted to the region of each row's largest weight, renormalised."""
+    import scipy.sparse as sp
+
+    T = sp.csr_matrix(T, dtype=float, copy=True)
+    main = np.asarray(T.argmax(axis=1)).ravel()
+    rows = np.repeat(np.arange(T.shape[0]), np.diff(T.indptr))
+    T.data = np.where(groups[T.indices] == groups[main[rows]], T.data, 0.0)
+    T.eliminate_zeros()
+    s = np.asarray(T.sum(axis=1)).ravel()
+    return sp.diags(1.0 / s) @ T

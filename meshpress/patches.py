@@ -185,10 +185,70 @@ class Carrier:
         rows = np.repeat(np.arange(len(points)), 3)
         return sp.csr_matrix((bary.ravel(), (rows, self.faces[best].ravel())), shape=(len(points), self.n))
 
-    def fine_weights(self, face_weights) -> np.ndarray:
-        """(n_c, k) float: per-face figure weights (m, k) gathered onto the carrier, ``B^T G``."""
+    def fine_weights(self, face_weights, face_matrix=None) -> np.ndarray:
+        """(n_c, k) float: per-face figure weights (m, k) gathered onto the carrier, ``B^T G``.
+
+        ``face_matrix`` replaces ``B`` (e.g. :meth:`regions_face_matrix`).
+        """
         g = np.asarray(face_weights, float)
-        return np.asarray(self.face_matrix.T @ g)
+        B = self.face_matrix if face_matrix is None else face_matrix
+        return np.asarray(B.T @ g)
+
+    def regions(self, spec):
+        """Carrier vertex regions and the region-respecting face matrix of a region specification.
+
+        Parameters
+        ----------
+        spec : str or (m,) array, or None
+            As :func:`meshpress.regions.face_regions`.
+
+        Returns
+        -------
+        groups : (n_c,) int or None
+        face_matrix : (m, n_c) sparse
+            :attr:`face_matrix` without regions.
+        """
+        if spec is None:
+            return None, self.face_matrix
+        from .regions import face_regions
+
+        _, labels = face_regions(self.body, spec)
+        groups = self.node_regions(labels)
+        return groups, self.regions_face_matrix(groups, labels)
+
+    def node_regions(self, face_labels) -> np.ndarray:
+        """(n_c,) int: region of each carrier vertex from the fine faces' regions (m,) int.
+
+        A vertex takes the region holding most area among the fine faces it
+        weighs most in; a vertex no face leans on most takes the nearest face's.
+        """
+        labels = np.asarray(face_labels, np.int64).ravel()
+        main = np.asarray(self.face_matrix.argmax(axis=1)).ravel()
+        votes = sp.coo_matrix((self.body.face_areas, (main, labels)), shape=(self.n, labels.max() + 1)).toarray()
+        out = votes.argmax(axis=1)
+        empty = votes.max(axis=1) <= 0
+        if empty.any():
+            from scipy.spatial import cKDTree
+
+            out[empty] = labels[cKDTree(self.body.centroids).query(self.vertices[empty])[1]]
+        return out
+
+    def regions_face_matrix(self, node_regions, face_labels):
+        """(m, n_c) sparse: :attr:`face_matrix` with each face drawing on vertices of its own region only.
+
+        Rows renormalised; a face whose carrier neighbours all lie in other
+        regions keeps its original row.
+        """
+        B = self.face_matrix.tocsr(copy=True)
+        labels = np.asarray(face_labels).ravel()
+        rows = np.repeat(np.arange(B.shape[0]), np.diff(B.indptr))
+        same = np.asarray(node_regions)[B.indices] == labels[rows]
+        kept = np.bincount(rows, weights=np.where(same, B.data, 0.0), minlength=B.shape[0])
+        keep_row = kept > 0
+        B.data = np.where(same | ~keep_row[rows], B.data, 0.0)
+        B.eliminate_zeros()
+        s = np.asarray(B.sum(axis=1)).ravel()
+        return sp.diags(1.0 / s) @ B
 
     def nearest_vertex(self, points) -> np.ndarray:
         """(p,) int: nearest carrier vertex of each point (straight line)."""

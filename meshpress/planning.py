@@ -149,7 +149,7 @@ def greedy_plan(cov, a, n_add, *, candidates, blocked_from=(), distance=None, mi
 
 def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrier=None, n_patches=2500,
               q=None, ref_area=None, boxes=(), excluded_faces=None, min_spacing=0.05, length_scale=None,
-              kernel="exponential", progress=None) -> Plan:
+              kernel="exponential", regions=None, progress=None) -> Plan:
     """Propose ``n_add`` tap positions that cut the chosen figures' uncertainty most.
 
     Parameters
@@ -174,6 +174,8 @@ def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrie
         ``exponential``: with ``auto`` the planned taps beat random ones less
         on CLF (docs/uncertainty.md).  Without three taps to fit it, the
         exponential kernel is used.
+    regions : str or (m,) array, optional
+        Regions modelled as independent fields (:func:`~meshpress.uncertainty.compute_uncertainty`).
 
     Returns
     -------
@@ -199,10 +201,11 @@ def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrie
         raise InputError(f"cannot plan for {', '.join(missing)}: needs axle positions (CLF, CLR, CPM) or q (N figures)")
     if carrier is None:
         carrier = Carrier(body, n_patches, progress=progress)
-    a = carrier.fine_weights(G)
+    groups, B = carrier.regions(regions)
+    a = carrier.fine_weights(G, B)
     n_taps = 0 if taps is None else len(taps)
     if n_taps >= 3:
-        gp = SurfaceGP.on_carrier(carrier, kernel=kernel, length_scale=length_scale)
+        gp = SurfaceGP.on_carrier(carrier, kernel=kernel, length_scale=length_scale, groups=groups)
         gp.fit(carrier.points_matrix(taps.points), taps.values)
         cov = gp.posterior_cov()
         noise = gp.nugget_
@@ -213,6 +216,8 @@ def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrie
         ell = length_scale or 0.2 * float(carrier.distance.max())
         name = kernel if kernel in ("exponential", "matern32") else "exponential"
         cov = 1.0 + kfun(carrier.distance / ell, name)  # unit variance, constant-mean prior of 1
+        if groups is not None:
+            cov *= groups[:, None] == groups[None, :]
         noise = 1e-4
         blocked = carrier.nearest_vertex(taps.points) if n_taps else np.zeros(0, np.int64)
         if n_taps:

@@ -373,7 +373,7 @@ def report_numbers(result: UncertaintyResult, figure: str = "CL") -> dict:
 
 def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | None = None, carrier=None,
                         n_patches: int = 2500, field=None, kernel: str = "auto", length_scale=None,
-                        trend: str | None = None, progress=None) -> UncertaintyResult:
+                        trend: str | None = None, regions=None, progress=None) -> UncertaintyResult:
     """Kriging estimate and band of every figure.
 
     Parameters
@@ -398,6 +398,10 @@ def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | Non
     trend : {"normal", None}
         ``"normal"``: the field's mean has a term linear in the surface
         normal (see :class:`~meshpress.kriging.SurfaceGP`).
+    regions : str or (m,) array, optional
+        Region specification (:func:`meshpress.regions.face_regions`): the
+        model treats the regions as independent fields, as the ``+regions``
+        field methods do.
 
     Returns
     -------
@@ -416,9 +420,10 @@ def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | Non
     names, G = figure_face_weights(body, kind=taps.kind, q=q, ref_area=ref_area, wheelbase=wb)
     if carrier is None:
         carrier = Carrier(body, n_patches, progress=progress)
-    a = carrier.fine_weights(G)
+    groups, B = carrier.regions(regions)
+    a = carrier.fine_weights(G, B)
     T = carrier.points_matrix(taps.points)
-    gp = SurfaceGP.on_carrier(carrier, kernel=kernel, trend=trend, length_scale=length_scale)
+    gp = SurfaceGP.on_carrier(carrier, kernel=kernel, trend=trend, length_scale=length_scale, groups=groups)
     gp.fit(T, taps.values, meas.tap_u**2)
     mean, var, Wk = gp.figures(a)
     closure = G.sum(axis=0)
@@ -447,7 +452,9 @@ def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | Non
                          f"the fit treats the body as one constant plus noise)")
     bands = [Band(nm, float(mean[k]), float(np.sqrt(v_meas[k] + v_samp[k] + v_q[k])), float(np.sqrt(v_meas[k])),
                   float(np.sqrt(v_samp[k])), float(np.sqrt(v_q[k])), field_vals[k]) for k, nm in enumerate(names)]
-    face_sd = np.asarray(carrier.face_matrix @ np.sqrt(gp.node_var()))
+    if groups is not None:
+        notes.append(f"{len(np.unique(groups))} regions modelled as independent fields")
+    face_sd = np.asarray(B @ np.sqrt(gp.node_var()))
     res = UncertaintyResult(bands, face_sd, G, names, gp.describe(), taps.kind, notes, Wk)
     res.gp, res.carrier = gp, carrier
     return res

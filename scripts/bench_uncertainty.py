@@ -11,8 +11,9 @@ and the ratio of the mean 95 % half-width to the RMS error (target: coverage
 0.90-0.98, ratio <= 3).  The RBF field's figures are scored against the same
 band for information.
 
-Run: ``python scripts/bench_uncertainty.py [N] [n_patches] [cases] [kernels] [trend]`` (default 50, 2500,
-hemisphere,wing,car, auto, none; trend "normal" adds a mean linear in the surface normal).
+Run: ``python scripts/bench_uncertainty.py [N] [n_patches] [cases] [kernels] [trend] [regions]`` (default 50,
+2500, hemisphere,wing,car, auto, none, none; trend "normal" adds a mean linear in the surface normal; regions
+is a ``--regions`` specification, e.g. "normal", applied to both the model and the RBF field).
 """
 
 from __future__ import annotations
@@ -36,7 +37,7 @@ FIGS = ("CL", "CD", "CLF", "CLR")
 N_TAPS = {"hemisphere": 36, "wing": 48, "car": 57}
 
 
-def run_case(case, n_layouts, n_patches, rng, kernel="auto", trend=None):
+def run_case(case, n_layouts, n_patches, rng, kernel="auto", trend=None, regions=None):
     body, cp, area = getattr(tc, case)()
     area = area or body.frontal_area()
     t0 = time.perf_counter()
@@ -56,10 +57,10 @@ def run_case(case, n_layouts, n_patches, rng, kernel="auto", trend=None):
             taps = tc.make_taps(body, cp, pts)
             taps = taps.with_values(taps.values + rng.normal(0, U_TAP, len(taps)))
             meas = Measurement.build(len(taps), tap_u=np.full(len(taps), U_TAP))
-            rbf = make_field("rbf").fit(body, taps)
+            rbf = make_field("rbf", **({} if regions is None else {"regions": regions})).fit(body, taps)
             t = time.perf_counter()
             r = compute_uncertainty(body, taps, ref_area=area, meas=meas, carrier=car, field=rbf, kernel=kernel,
-                                    trend=trend)
+                                    trend=trend, regions=regions)
             chosen[r.gp.kernel_] = chosen.get(r.gp.kernel_, 0) + 1
             times.append(time.perf_counter() - t)
             for f in FIGS:
@@ -93,10 +94,12 @@ def main():
     kernel = sys.argv[4] if len(sys.argv) > 4 else "auto"
     trend = (sys.argv[5] if len(sys.argv) > 5 else "none")
     trend = None if trend == "none" else trend
+    regions = sys.argv[6] if len(sys.argv) > 6 else "none"
+    regions = None if regions == "none" else regions
     rng = np.random.default_rng(2026)
     report = {}
     for case in cases:
-        rows, tc_s, t_med, truth, chosen = run_case(case, n, n_patches, rng, kernel, trend)
+        rows, tc_s, t_med, truth, chosen = run_case(case, n, n_patches, rng, kernel, trend, regions)
         report[case] = dict(kriging=summarise(rows), rbf_with_kriging_band=summarise(rows, "rbf_err"),
                             carrier_s=tc_s, median_band_s=t_med, truth={k: float(v) for k, v in truth.items()},
                             kernels_chosen=chosen)
@@ -107,7 +110,9 @@ def main():
             for k, v in report[case][est].items():
                 print(f"    {k:<16} coverage {v['coverage']:.2f}  rms err {v['rms_err']:.4f}  rms u {v['rms_u']:.4f}"
                       f"  1.96u/rms err {v['halfwidth_over_rms_err']:.2f}  (n={v['n']})")
-    out = Path(__file__).resolve().parent / f"bench_uncertainty_{n}_{n_patches}_{'-'.join(cases)}_{kernel.replace(',', '+')}_{trend}.json"
+    tag = "" if regions is None else "_regions-" + regions.replace(";", "+")
+    out = (Path(__file__).resolve().parent
+           / f"bench_uncertainty_{n}_{n_patches}_{'-'.join(cases)}_{kernel.replace(',', '+')}_{trend}{tag}.json")
     out.write_text(json.dumps(report, indent=1))
     print(f"\nwrote {out}")
 

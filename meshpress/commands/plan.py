@@ -29,6 +29,9 @@ def add_parser(sub):
     p.add_argument("--length-scale", default=None, metavar="L",
                    help="kriging length scale when it cannot be fitted (fewer than 3 taps), e.g. '0.8 m'")
     p.add_argument("--patches", type=int, default=2500, metavar="N", help="carrier patches (default 2500)")
+    p.add_argument("--regions", default=None, metavar="SPEC",
+                   help="model these regions as independent fields (as 'loads --regions': 'normal', "
+                        "'edges[:ANGLE]', planes, boxes or a face label file)")
     add_gp_kernel_option(p, "exponential", "see meshpress uncertainty --help and docs/uncertainty.md")
     p.add_argument("--out", default="planned_taps.csv", help="CSV of the new taps, mesh coordinates and unit "
                                                              "(default planned_taps.csv)")
@@ -107,7 +110,7 @@ def run(args) -> int:
     plan = plan_taps(body, taps, figures=figures, n_add=args.add, n_patches=args.patches,
                      boxes=_boxes(args.exclude_box, body), excluded_faces=_faces(args.exclude_faces, body),
                      min_spacing=spacing, length_scale=ell, q=resolve_q(args.q, speed_mps(args.speed), args.air_density),
-                     ref_area=args.ref_area, kernel=args.kernel_gp, progress=progress)
+                     ref_area=args.ref_area, kernel=args.kernel_gp, regions=args.regions, progress=progress)
     pts = body.frame.to_mesh(plan.points) if body.frame else plan.points
     existing = set(taps.names) if taps is not None else set()
     names, k = [], 1

@@ -19,7 +19,8 @@ def add_parser(sub):
     p = sub.add_parser("uncertainty", help="loads with standard uncertainties and 95 %% intervals",
                        description="Integrate the taps as 'loads' does, then give every figure a band: "
                                    "measurement (per-tap spread, sensor accuracy, q, reference pressure) and "
-                                   "sampling (a kriging model of the field along the surface).")
+                                   "sampling (a kriging model of the field along the surface). With --regions "
+                                   "the model, like the field, treats the regions as independent.")
     p.add_argument("mesh", help="surface mesh")
     p.add_argument("taps", help="tap table; an optional column u (or p_u, cp_u, sem) holds each tap's standard "
                                 "uncertainty in the value's unit, e.g. the standard error of its readings' mean")
@@ -171,7 +172,8 @@ def run(args) -> int:
             carrier = Carrier(body, args.patches, progress=progress)
     with progress.step("kriging bands"):
         unc = compute_uncertainty(body, taps, q=q, ref_area=loads.ref_area_m2, meas=meas, field=field,
-                                  n_patches=args.patches, kernel=args.kernel_gp, carrier=carrier, progress=progress)
+                                  n_patches=args.patches, kernel=args.kernel_gp, carrier=carrier, regions=args.regions,
+                                  progress=progress)
     change = None
     if args.baseline:
         from ..change import ErrorSources, compute_change
@@ -187,10 +189,11 @@ def run(args) -> int:
         with progress.step("kriging bands of the baseline and of the change"):
             base_unc = compute_uncertainty(body, base_taps, q=q, ref_area=loads.ref_area_m2,
                                            meas=e_base.measurement(), field=base_field, carrier=carrier,
-                                           kernel=args.kernel_gp, progress=progress)
+                                           kernel=args.kernel_gp, regions=args.regions, progress=progress)
             change = compute_change(body, taps, base_taps.values, taps.values, err_base=e_base, err_other=e_other,
                                     correlation=args.error_correlation, q=q, ref_area=loads.ref_area_m2,
                                     carrier=carrier, kernel=args.kernel_gp, base_result=base_unc, other_result=unc,
+                                    regions=args.regions,
                                     field_change=(_face_values(loads) - _face_values(base_loads)),
                                     base_label=str(args.baseline), other_label=str(args.taps), progress=progress)
         if dropped:
