@@ -42,6 +42,20 @@ Fit.  ``s``, ``l`` and the nugget (at most NUGGET_MAX of ``s^2``) maximise the m
 (Rasmussen and Williams eq. 2.30), by L-BFGS-B on their logarithms from a few
 starting length scales.
 
+Orientation.  With ``orientation=True`` the correlation is multiplied by a
+factor of the angle between the two places' normals,
+``exp(-(1 - n_i . n_j) / theta^2)`` (the exponential of the positive
+definite linear kernel, so positive definite; on the unit sphere the
+von Mises-Fisher kernel), with ``theta`` fitted with the others: the input of
+the field is the place *and* the way the surface faces there.  Pressure
+follows orientation (stagnation on forward-facing skin, a wake level on the
+base, suction where the flow turns round an edge), so taps on the roof say
+little about the nose just below it even at a short distance along the
+surface.  The limit ``theta -> 0`` separates up- from down-facing skin as the
+``normal`` regions do; ``theta`` large switches the factor off.  Taps use the
+normal ``T n`` of their carrier row (renormalised); the joint covariance of
+taps and nodes is the Schur product of two positive semi-definite matrices.
+
 Regions.  With ``groups`` (a region label per node, :mod:`meshpress.regions`) the
 correlation and the constant mean are multiplied by the indicator "same
 region", ``K = (tau^2 + s^2 R) o B`` with ``B_ij = [g_i = g_j]``: the regions
@@ -128,7 +142,8 @@ class SurfaceGP:
         ``tau^2``, prior variance of the constant mean; default
         ``(10 * (|mean y| + std y))^2``.
     normals : (n_c, 3) float, optional
-        Unit normals at the nodes: adds a linear trend ``beta . n`` with
+        Unit normals at the nodes, for the orientation factor and (see
+        ``trend``) a linear trend ``beta . n`` with
         ``beta ~ N(0, t^2 I)`` and ``t`` fitted by maximum likelihood
         (universal kriging on the normal; ``trend_variance_``).
     trend_variance : float, optional
@@ -136,12 +151,21 @@ class SurfaceGP:
     groups : (n_c,) int, optional
         Region of each node: no correlation, and separate means, across
         regions.
+    orientation : bool
+        Multiply the correlation by the normals' factor (module docstring);
+        needs ``normals``.
+    normal_scale : float, optional
+        Fix ``theta`` (dimensionless) instead of fitting it.
+    trend : bool, optional
+        Use ``normals`` for the trend; default: yes unless ``orientation``.
 
     Attributes (after fit)
     ----------------------
     kernel_ : str
         The kernel used (the chosen one for ``"auto"``).
     length_scale_, variance_, nugget_, mean_variance_, nll_ : float
+    normal_scale_ : float
+        ``theta``; ``inf`` without orientation.
     candidates_ : dict
         ``{kernel: negative log marginal likelihood}`` of every kernel tried.
     rejected_ : list of str
@@ -153,8 +177,14 @@ class SurfaceGP:
     """
 
     def __init__(self, distance, *, kernel: str = "exponential", spectrum=None, length_scale=None, variance=None,
-                 nugget=None, mean_variance=None, normals=None, trend_variance=None, groups=None):
+                 nugget=None, mean_variance=None, normals=None, trend_variance=None, groups=None,
+                 orientation=False, normal_scale=None, trend=None):
         self.distance = np.asarray(distance, float)
+        self.orientation = bool(orientation)
+        self.normal_scale = normal_scale
+        self.use_trend = normals is not None and (not orientation if trend is None else bool(trend))
+        if self.orientation and normals is None:
+            raise InputError("the orientation factor needs the nodes' normals")
         self.groups = None if groups is None else np.asarray(groups).ravel()
         if self.groups is not None and len(self.groups) != len(self.distance):
             raise InputError(f"{len(self.groups)} node regions for {len(self.distance)} nodes")
@@ -175,7 +205,8 @@ class SurfaceGP:
         self.mean_variance = mean_variance
 
     @classmethod
-    def on_carrier(cls, carrier, *, kernel: str = "exponential", trend: str | None = None, groups=None, **params):
+    def on_carrier(cls, carrier, *, kernel: str = "exponential", trend: str | None = None, groups=None,
+                   orientation: bool = False, **params):
         """A model on a :class:`~meshpress.patches.Carrier`: its distances, and its spectrum and normals when
         ``kernel`` and ``trend`` need them.
 
@@ -188,6 +219,8 @@ class SurfaceGP:
             ``"normal"`` passes the carrier's vertex normals (a normal trend).
         groups : (n_c,) int, optional
             Region of each carrier vertex (:meth:`~meshpress.patches.Carrier.node_regions`).
+        orientation : bool
+            The normals' factor in the correlation (class docstring).
         **params
             Further constructor arguments (``length_scale`` and the others).
         """
@@ -195,7 +228,8 @@ class SurfaceGP:
             raise InputError(f"kriging trend must be 'normal' or none, got {trend!r}")
         needs = any(k in SPECTRAL_KERNELS for k in kernel_names(kernel))
         return cls(carrier.distance, kernel=kernel, spectrum=carrier.spectrum() if needs else None,
-                   normals=carrier.normals if trend == "normal" else None, groups=groups, **params)
+                   normals=carrier.normals if (trend == "normal" or orientation) else None, groups=groups,
+                   orientation=orientation, trend=trend == "normal", **params)
 
     # ------------------------------------------------------------------ fit
     def fit(self, tap_matrix, y, noise_var=None, *, length_bounds=None):
@@ -234,7 +268,10 @@ class SurfaceGP:
         # Trend on the surface normal (universal kriging, Cressie 1993 sec. 3.4; R&W sec. 2.7): forward-, rear-,
         # up- and down-facing skin see systematically different pressure (stagnation on the nose, base pressure,
         # suction over the top), which a stationary residual cannot carry into places no tap sees.
-        self.TN_ = None if self.normals is None else np.asarray(T @ self.normals)  # (n, 3)
+        self.TN_ = None if not self.use_trend else np.asarray(T @ self.normals)  # (n, 3)
+        if self.orientation:
+            nt = np.asarray(T @ self.normals)
+            self.tap_normals_ = nt / np.maximum(np.linalg.norm(nt, axis=1, keepdims=True), 1e-12)
         dmax = float(self.distance.max())
         if length_bounds is None:
             # Below the taps' own spacing the data say nothing about the correlation, and a short length
@@ -265,6 +302,7 @@ class SurfaceGP:
         self.kernel_, p, self.nll_ = best or fallback
         self.length_scale_, self.variance_, self.nugget_ = p["l"], p["s2"], p["nug"]
         self.trend_variance_ = p["tn"]
+        self.normal_scale_ = p["th"]
         self._condition()
         return self
 
@@ -301,7 +339,8 @@ class SurfaceGP:
         n = len(y)
         corr = self._tap_corr_fn(name, T)
         fixed = {"l": self.length_scale, "s2": self.variance, "nug": self.nugget,
-                 "tn": self.trend_variance if self.TN_ is not None else 0.0}
+                 "tn": self.trend_variance if self.TN_ is not None else 0.0,
+                 "th": self.normal_scale if self.orientation else np.inf}
         # The nugget is fitted as a fraction of the field variance, at most NUGGET_MAX: left free, a field the
         # kernel cannot follow is "explained" as pure noise, and noise averages out of every integral, so the
         # bands would shrink exactly when the model fits worst.
@@ -309,8 +348,10 @@ class SurfaceGP:
         # base, the data cannot tell how much the rear-facing skin differs, and a vanishing trend would say "not
         # at all" with certainty.
         bounds = {"l": np.log(length_bounds), "s2": np.log([1e-4 * scale**2, 1e2 * scale**2]),
-                  "nug": np.log([1e-8, NUGGET_MAX]), "tn": np.log([1e-2 * scale**2, 1e2 * scale**2])}
-        free = [k for k in ("l", "s2", "nug", "tn") if fixed[k] is None]
+                  "nug": np.log([1e-8, NUGGET_MAX]), "tn": np.log([1e-2 * scale**2, 1e2 * scale**2]),
+                  "th": np.log([0.1, 10.0])}
+        free = [k for k in ("l", "s2", "nug", "tn", "th") if fixed[k] is None]
+        C1 = None if not self.orientation else 1.0 - self.tap_normals_ @ self.tap_normals_.T  # (n, n), 0..2
         NN = None if self.TN_ is None else self.TN_ @ self.TN_.T
         Btt = self._tap_mask()
 
@@ -327,6 +368,10 @@ class SurfaceGP:
             p = unpack(theta)
             R, dR = corr(p["l"])
             R, dR = R * Btt, dR * Btt
+            if C1 is not None:
+                F = np.exp(-C1 / p["th"] ** 2)
+                R, dR = R * F, dR * F
+                dth = R * (2.0 * C1 / p["th"] ** 2)  # d R / d log theta
             S = self.mean_variance_ * Btt + p["s2"] * R + np.diag(nv + p["nug"])
             if p["tn"]:
                 S = S + p["tn"] * NN
@@ -349,6 +394,8 @@ class SurfaceGP:
                     g.append(0.5 * tr)
                 elif k == "nug":
                     g.append(0.5 * p["nug"] * np.trace(A))
+                elif k == "th":
+                    g.append(0.5 * np.sum(A * (p["s2"] * dth)))
                 else:
                     g.append(0.5 * p["tn"] * np.sum(A * NN))
             return f, np.array(g)
@@ -362,7 +409,7 @@ class SurfaceGP:
                 x0 = []
                 for k in free:
                     x0.append({"l": np.log(l0) if l0 else 0.0, "s2": np.log(scale**2),
-                               "nug": np.log(1e-3), "tn": np.log(scale**2)}[k])
+                               "nug": np.log(1e-3), "tn": np.log(scale**2), "th": 0.0}[k])
                 x0 = np.clip(x0, [bounds[k][0] for k in free], [bounds[k][1] for k in free])
                 r = minimize(nll_grad, x0, jac=True, method="L-BFGS-B",
                              bounds=[tuple(bounds[k]) for k in free], options={"maxiter": 200})
@@ -371,7 +418,8 @@ class SurfaceGP:
             return unpack(best.x), float(best.fun)
         # Too few taps to learn from: documented defaults (a fifth of the body, the data's spread).
         p = {"l": fixed["l"] or 0.2 * dmax, "s2": fixed["s2"] or scale**2, "nug": fixed["nug"] or 1e-4 * scale**2,
-             "tn": fixed["tn"] if fixed["tn"] is not None else scale**2}
+             "tn": fixed["tn"] if fixed["tn"] is not None else scale**2,
+             "th": fixed["th"] if fixed["th"] is not None else 1.0}
         return p, float("nan")
 
     def _tap_spacing(self, T) -> float:
@@ -386,27 +434,43 @@ class SurfaceGP:
         return float(np.median(nn)) if nn.size else 0.05 * float(self.distance.max())
 
     def log_marginal_likelihood(self, length_scale, variance, nugget) -> float:
-        """Log marginal likelihood of the fitted taps at the given hyperparameters (fitted kernel)."""
-        Btt = self._tap_mask()
-        R = self._tap_corr_fn(self.kernel_, self.T_)(length_scale)[0] * Btt
-        S = self.mean_variance_ * Btt + variance * R + np.diag(self.noise_var_ + nugget)
+        """Log marginal likelihood of the fitted taps at the given hyperparameters (fitted kernel and theta)."""
+        R = self._tap_corr_fn(self.kernel_, self.T_)(length_scale)[0] * self._tap_mask() * self._orient(True, True)
+        S = self.mean_variance_ * self._tap_mask() + variance * R + np.diag(self.noise_var_ + nugget)
+        if self.trend_variance_:
+            S = S + self.trend_variance_ * (self.TN_ @ self.TN_.T)
         c = sla.cho_factor(S, lower=True)
         a = sla.cho_solve(c, self.y_)
         return float(-0.5 * self.y_ @ a - np.log(np.diag(c[0])).sum() - 0.5 * len(self.y_) * np.log(2 * np.pi))
 
+    def _orient(self, rows_taps: bool, cols_taps: bool):
+        """Orientation factor between taps and/or nodes at the fitted theta, or 1.0 without it."""
+        th = getattr(self, "normal_scale_", np.inf)
+        if not self.orientation or not np.isfinite(th):
+            return 1.0
+        u = self.tap_normals_ if rows_taps else self.normals
+        v = self.tap_normals_ if cols_taps else self.normals
+        return np.exp(-(1.0 - u @ v.T) / th**2)
+
     def _condition(self):
-        """Prior covariance pieces at the fitted values, and the factorised tap covariance."""
+        """Prior covariance pieces at the fitted values, and the factorised tap covariance.
+
+        Sets ``TK_`` (n, n_c), the prior covariance of taps and nodes, and the
+        Cholesky factor of the taps' covariance ``S``.  Both are built from the
+        tap-level products (``T R``, ``T R T^T``) so that they agree with the
+        likelihood the fit maximised.
+        """
         self.clipped_ = 0.0
         tau2, s2 = self.mean_variance_, self.variance_
+        T = self.T_
+        self._K = self._R = None  # the (n_c, n_c) prior is built on demand (K_)
         if self.kernel_ in SPECTRAL_KERNELS:
             lam, phi, area = self.spectrum
             g = spectral_density(lam, self.length_scale_, SPECTRAL_KERNELS[self.kernel_])
             self._phi, self._g = phi, s2 * g * (area / g.sum())
-            self._K = None  # built on demand: (n_c, n_c) costs n_c^3
-            P = np.asarray(self.T_ @ phi)
-            # Rows of T sum to 1, so T (tau^2 1 1^T) = tau^2 1 1^T; with regions each tap reads one region's
-            # nodes only, so T (A o B) = (T A) o B_tap.
-            TK = (tau2 + (P * self._g) @ phi.T) * self._node_mask()
+            P = np.asarray(T @ phi)
+            TR = (P * self._g) @ phi.T  # s^2 T R, (n, n_c)
+            TRT = (P * self._g) @ P.T
         else:
             R = kernel(self.distance / self.length_scale_, self.kernel_)
             # Smallest diagonal shift (powers of ten) that lets the Cholesky factorisation through: it bounds the
@@ -420,15 +484,16 @@ class SurfaceGP:
             if shift:
                 R = R + shift * np.eye(len(R))
                 self.clipped_ = shift
-            self._K = tau2 + s2 * R
-            if self.groups is not None:
-                self._K *= self.groups[:, None] == self.groups[None, :]
-            if self.trend_variance_:
-                self._K += self.trend_variance_ * (self.normals @ self.normals.T)
-            TK = np.asarray(self.T_ @ self._K)  # (n, n_c)
-        if self._K is None and self.trend_variance_:
+            self._R = s2 * R
+            TR = np.asarray(T @ self._R)
+            TRT = np.asarray(T @ TR.T)
+        # Rows of T sum to 1, so T (tau^2 1 1^T) = tau^2 1 1^T; with regions each tap reads one region's nodes
+        # only, so T (A o B) = (T A) o B_tap.
+        TK = (tau2 + TR * self._orient(True, False)) * self._node_mask()
+        S = (tau2 + TRT * self._orient(True, True)) * self._tap_mask() + np.diag(self.noise_var_ + self.nugget_)
+        if self.trend_variance_:
             TK = TK + self.trend_variance_ * (self.TN_ @ self.normals.T)
-        S = np.asarray(self.T_ @ TK.T) + np.diag(self.noise_var_ + self.nugget_)
+            S = S + self.trend_variance_ * (self.TN_ @ self.TN_.T)
         self.TK_ = TK
         # Round-off can break the factorisation when the taps' covariance is dominated by the constant mean
         # (e.g. readings that are all equal): a jitter growing from 1e-12 of the mean diagonal restores it.
@@ -461,16 +526,18 @@ class SurfaceGP:
         """(n_c, n_c) float: prior covariance at the nodes."""
         self._check()
         if self._K is None:
-            self._K = self.mean_variance_ + (self._phi * self._g) @ self._phi.T
+            R = self._R if self._R is not None else (self._phi * self._g) @ self._phi.T
+            K = self.mean_variance_ + R * self._orient(False, False)
             if self.groups is not None:
-                self._K *= self.groups[:, None] == self.groups[None, :]
+                K *= self.groups[:, None] == self.groups[None, :]
             if self.trend_variance_:
-                self._K += self.trend_variance_ * (self.normals @ self.normals.T)
+                K += self.trend_variance_ * (self.normals @ self.normals.T)
+            self._K = K
         return self._K
 
     def _K_dot(self, a):
-        if self._K is not None:
-            return self._K @ a
+        if self._K is not None or self._R is not None or not np.isscalar(self._orient(False, False)):
+            return self.K_ @ a
         if self.groups is None:
             out = self.mean_variance_ * a.sum(axis=0, keepdims=True) + self._phi @ (self._g[:, None] * (self._phi.T @ a))
         else:  # (A o B) a = sum over regions r of 1_r o (A a_r), a_r = a outside r set to 0
@@ -484,9 +551,8 @@ class SurfaceGP:
         return out
 
     def _K_diag(self):
-        if self._K is not None:
-            return np.diag(self._K).copy()
-        d = self.mean_variance_ + (self._phi**2) @ self._g
+        """(n_c,) float: prior variance at the nodes (the orientation factor and the region mask are 1 there)."""
+        d = self.mean_variance_ + (np.diag(self._R).copy() if self._R is not None else (self._phi**2) @ self._g)
         if self.trend_variance_:
             d = d + self.trend_variance_ * (self.normals**2).sum(axis=1)
         return d
@@ -539,6 +605,8 @@ class SurfaceGP:
     def describe(self) -> str:
         trend = f", normal trend sd {np.sqrt(self.trend_variance_):.3g}" if self.trend_variance_ else ""
         regions = "" if self.groups is None else f", {len(np.unique(self.groups))} independent regions"
+        if self.orientation and np.isfinite(self.normal_scale_):
+            regions = f", orientation scale {self.normal_scale_:.2g}" + regions
         return (f"kriging ({self.kernel_} along the surface, length {self.length_scale_:.3g} m, "
                 f"sd {np.sqrt(self.variance_):.3g}, nugget sd {np.sqrt(self.nugget_):.3g}{trend}{regions})")
 

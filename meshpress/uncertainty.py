@@ -373,7 +373,8 @@ def report_numbers(result: UncertaintyResult, figure: str = "CL") -> dict:
 
 def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | None = None, carrier=None,
                         n_patches: int = 2500, field=None, kernel: str = "auto", length_scale=None,
-                        trend: str | None = None, regions=None, progress=None) -> UncertaintyResult:
+                        trend: str | None = None, regions=None, orientation: bool = False,
+                        progress=None) -> UncertaintyResult:
     """Kriging estimate and band of every figure.
 
     Parameters
@@ -423,7 +424,8 @@ def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | Non
     groups, B = carrier.regions(regions)
     a = carrier.fine_weights(G, B)
     T = carrier.points_matrix(taps.points)
-    gp = SurfaceGP.on_carrier(carrier, kernel=kernel, trend=trend, length_scale=length_scale, groups=groups)
+    gp = SurfaceGP.on_carrier(carrier, kernel=kernel, trend=trend, length_scale=length_scale, groups=groups,
+                              orientation=orientation)
     gp.fit(T, taps.values, meas.tap_u**2)
     mean, var, Wk = gp.figures(a)
     closure = G.sum(axis=0)

@@ -326,3 +326,49 @@ def test_regions_stop_the_band_leaking_between_plates():
     assert split.value == pytest.approx(2.0, rel=0.02)
     assert split.lo95 <= 2.0 <= split.hi95
     assert abs(split.value - 2.0) < abs(whole.value - 2.0)
+
+
+def test_orientation_factor_matches_scikit_learn_kernels_on_a_line():
+    # Reference: the GP posterior (Rasmussen and Williams 2006, eqs. 2.23-2.24) with the Gram matrices of
+    # scikit-learn's kernels: ConstantKernel + ConstantKernel * Matern(nu=0.5) on the position times RBF(theta) on
+    # the unit normal, because exp(-(1 - n.n') / theta^2) = exp(-|n - n'|^2 / (2 theta^2)) for unit vectors.
+    from sklearn.gaussian_process.kernels import RBF, Matern
+
+    x = np.linspace(0.0, 2.0, 61)
+    d = np.abs(x[:, None] - x[None, :])
+    phi = np.pi * np.clip(x - 0.5, 0, 1)  # the surface turns through 180 degrees between x = 0.5 and 1.5
+    nrm = np.column_stack([np.cos(phi), np.sin(phi), np.zeros_like(x)])
+    idx = np.array([2, 9, 17, 25, 31, 40, 47, 58])
+    y = np.cos(phi[idx]) + 0.2 * x[idx]
+    T = np.zeros((len(idx), len(x)))
+    T[np.arange(len(idx)), idx] = 1.0
+    gp = SurfaceGP(d, kernel="exponential", length_scale=0.5, variance=0.7, nugget=1e-3, mean_variance=4.0,
+                   normals=nrm, orientation=True, normal_scale=0.6).fit(T, y)
+    K = 4.0 + 0.7 * Matern(0.5, nu=0.5)(x[:, None]) * RBF(0.6)(nrm)
+    S = K[np.ix_(idx, idx)] + 1e-3 * np.eye(len(idx))
+    mu = K[:, idx] @ np.linalg.solve(S, y)
+    var = np.diag(K) - np.einsum("ij,ji->i", K[:, idx], np.linalg.solve(S, K[idx, :]))
+    np.testing.assert_allclose(gp.node_mean(), mu, atol=1e-8)
+    np.testing.assert_allclose(gp.node_var(), var, atol=1e-8)
+    np.testing.assert_allclose(gp.K_, K, atol=1e-12)
+
+
+def test_orientation_keeps_the_two_faces_of_a_plate_apart():
+    # The plates of the regions test without any regions: the orientation factor alone must bring the estimate
+    # of the closed-form net lift (2 per q and m2) closer than the plain model, and hold it inside its band.
+    import trimesh
+
+    m = trimesh.creation.box(extents=(1.0, 1.0, 0.02))
+    v, f = trimesh.remesh.subdivide_to_size(m.vertices, m.faces, max_edge=0.04)
+    body = Body(v, f, axles=Axles(-0.25, 0.25))
+    gx = np.linspace(-0.4, 0.4, 4)
+    top = np.array([(x, y, 0.01) for x in gx for y in gx])
+    bot = top * [1, 1, -1] + [0.06, 0.06, 0]
+    taps = make_taps(body, np.vstack([top, bot]), np.r_[-1.0 - 0.5 * top[:, 0], np.full(16, 1.0)])
+    car = Carrier(body, 800)
+    plain = compute_uncertainty(body, taps, ref_area=1.0, carrier=car).band("CL")
+    turned = compute_uncertainty(body, taps, ref_area=1.0, carrier=car, orientation=True)
+    b = turned.band("CL")
+    assert abs(b.value - 2.0) < 0.5 * abs(plain.value - 2.0)
+    assert b.lo95 <= 2.0 <= b.hi95
+    assert "orientation" in turned.model
