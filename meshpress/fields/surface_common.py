@@ -17,6 +17,21 @@ def check_common(field):
         raise InputError("no taps to interpolate")
 
 
+def vertex_normals(body):
+    """(n, 3) float: area-weighted unit vertex normals of ``body`` (zero where no face has area)."""
+    vn = np.zeros_like(body.vertices)
+    np.add.at(vn, body.faces.ravel(), np.repeat(body.area_vectors, 3, axis=0))
+    size = np.linalg.norm(vn, axis=1, keepdims=True)
+    return np.divide(vn, size, out=np.zeros_like(vn), where=size > 0)
+
+
+def normals_at(vnormals, faces, face_index, barycentric):
+    """(k, 3) float: unit normals at surface points, the barycentric blend of their face's vertex normals."""
+    n = (vnormals[faces[face_index]] * barycentric[..., None]).sum(axis=1)
+    size = np.linalg.norm(n, axis=1, keepdims=True)
+    return np.divide(n, size, out=np.zeros_like(n), where=size > 0)
+
+
 def prepare(field, body, taps, progress):
     """Working copy, tap locations on it and tap -> vertex surface distances (k, n_work)."""
     wm = work_mesh(body, field.work_faces, getattr(field, "max_edge_ratio", None))
@@ -33,4 +48,4 @@ def prepare(field, body, taps, progress):
     return wm, f, b
 
 
-__all__ = ["TARGET_FACES", "check_common", "prepare"]
+__all__ = ["TARGET_FACES", "check_common", "prepare", "vertex_normals", "normals_at"]
