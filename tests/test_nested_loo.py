@@ -106,3 +106,25 @@ def test_compare_reports_both_scores():
     assert c["recommended"] == min(by, key=lambda m: by[m]["loo_nested_rms"])
     assert "nested" in c["summary"]
 
+
+def test_point_chunks_give_the_one_block_answer():
+    # Evaluating in chunks bounds the memory of the (taps, points, 3) temporaries and must not change a value
+    # (common practice; scipy's RBFInterpolator chunks its evaluation the same way).
+    from meshpress.fields.surface_common import by_point_chunks
+
+    v, f = icosphere(3)
+    sphere = Body(v, f)
+    pts = fibonacci_sphere(20)
+    taps = make_taps(sphere, pts, np.cos(3 * pts[:, 1]))
+    field = make_field("geodesic").fit(sphere, taps)
+    q = fibonacci_sphere(301)
+    fi, b = field.work_.locate(q)
+    whole = field.at_points(q)
+    wm = field.work_
+
+    def raw(fc, bc):
+        d = wm.distance.at_points(field.distances_, fc, bc)
+        return field.coef_ @ matern(field.kernel, d, field.length_) + field.mean_
+
+    np.testing.assert_allclose(by_point_chunks(fi, b, raw, chunk=7), raw(fi, b), rtol=1e-12)
+    np.testing.assert_allclose(whole, raw(fi, b), rtol=1e-12)

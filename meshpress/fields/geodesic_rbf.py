@@ -55,7 +55,7 @@ from ..errors import InputError
 from .base import Field
 from .bounds import BoundedMixin
 from .kernels import GEODESIC_KERNELS, matern, nested_residuals, solve_with_nested
-from .surface_common import TARGET_FACES, check_common, normals_at, prepare, vertex_normals
+from .surface_common import TARGET_FACES, by_point_chunks, check_common, normals_at, prepare, vertex_normals
 
 TRENDS = ("auto", "constant", "normal")
 
@@ -212,9 +212,13 @@ class GeodesicRBFField(BoundedMixin, Field):
         points (the same construction as the tap system, so refits match the closed-form LOO)."""
         self._check()
         f, b = self.work_.locate(points)
-        d = self.work_.distance.at_points(self.distances_, f, b)
-        n = normals_at(self.vertex_normals_, self.work_.body.faces, f, b)
-        return self.coef_ @ matern(self.kernel, d, self.length_) + self._trend(n)
+        wm = self.work_
+
+        def value(fc, bc):
+            d = wm.distance.at_points(self.distances_, fc, bc)
+            n = normals_at(self.vertex_normals_, wm.body.faces, fc, bc)
+            return self.coef_ @ matern(self.kernel, d, self.length_) + self._trend(n)
+        return by_point_chunks(f, b, value)
 
     def loo_residuals(self):
         """(n,) float: Rippa's closed-form leave-one-out residuals (same length scale and ridge)."""
