@@ -30,6 +30,11 @@ METHODS = ["rbf", "geodesic", "biharmonic", "harmonic", "nearest", "strip", "kri
 MID = 0.5 * sum(samples.WHEELBASE_X)
 
 
+def _load():
+    """The machine's 1-minute load average (/proc/loadavg): other jobs inflate the wall times."""
+    return open("/proc/loadavg").read().split()[0]
+
+
 def make_body_arrays(n_stations, n_around):
     v, f = samples.car_body(n_stations, n_around)
     return v - [MID, 0, 0], f
@@ -94,8 +99,8 @@ def main(methods=METHODS, copies=True):
     truth = samples.car_cp(body.centroids + [MID, 0, 0], body.face_normals)
     lt = loads_of(body, truth, ref)
     print(f"truth on the full mesh: CL {lt[0]:+.4f} CLF {lt[1]:+.4f} CLR {lt[2]:+.4f}")
-    print("\n| method | wall s | CPU s | of which method (wall) s | peak GB | CL | CLF | CLR |\n"
-          "|---|---|---|---|---|---|---|---|")
+    print("\n| method | wall s | CPU s | of which method (wall) s | peak GB | CL | CLF | CLR | load avg (1 min) |\n"
+          "|---|---|---|---|---|---|---|---|---|")
     for m in methods:
         out = subprocess.run([sys.executable, __file__, "--child", m], capture_output=True, text=True)
         if out.returncode:
@@ -103,7 +108,7 @@ def main(methods=METHODS, copies=True):
             continue
         r = json.loads(out.stdout.strip().splitlines()[-1])
         print(f"| {m} | {r['total_s']:.1f} | {r['cpu_s']:.1f} | {r['method_s']:.1f} | {r['peak_GB']:.2f} | {r['CL']:+.4f} | "
-              f"{r['CLF']:+.4f} | {r['CLR']:+.4f} |", flush=True)
+              f"{r['CLF']:+.4f} | {r['CLR']:+.4f} | {_load()} |", flush=True)
 
     print(f"(load average {open('/proc/loadavg').read().split()[0]} on 2 cores)")
     if not copies:

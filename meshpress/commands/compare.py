@@ -8,12 +8,13 @@ from .options import add_body_options, add_field_options, add_flow_options, meth
 def add_parser(sub):
     p = sub.add_parser("compare", help="run several field methods on the same taps and compare them",
                        description="Fit every chosen field method to the same taps; print each one's "
-                                   "leave-one-out error at the taps, its loads, the spread between methods "
-                                   "and the method with the lowest cross-validation error.")
+                                   "leave-one-out error at the taps (plain, and nested: its settings "
+                                   "re-chosen without each tap), its loads, the spread between methods "
+                                   "and the method with the lowest nested cross-validation error.")
     p.add_argument("mesh", help="surface mesh (STL, OBJ, PLY, ...)")
     p.add_argument("taps", help="tap table, CSV or .xlsx")
     p.add_argument("--methods", default=None, metavar="LIST",
-                   help="comma-separated methods (default all: rbf,geodesic,biharmonic,harmonic,nearest,strip)")
+                   help="comma-separated methods (default all: rbf,geodesic,biharmonic,harmonic,nearest,strip,kriging)")
     add_body_options(p)
     add_flow_options(p)
     add_field_options(p, method_help="one method only: the same as --methods NAME")
@@ -98,9 +99,9 @@ def _picture(path, body, taps, fields, c, q, args, progress):
     def title(n):
         r = rows[n]
         cl = "n/a" if r["CL"] is None else f"{r['CL']:+.3f}"
-        loo = "n/a" if r["loo_rms"] is None else f"{r['loo_rms']:.3f}"
+        loo = "n/a" if r["loo_nested_rms"] is None else f"{r['loo_nested_rms']:.3f}"
         star = "  (recommended)" if n == c["recommended"] else ""
-        return f"{n}: CL {cl}, LOO rms {loo} {r['loo_unit']}{star}"
+        return f"{n}: CL {cl}, nested LOO rms {loo} {r['loo_unit']}{star}"
 
     fig = image_grid(images, {n: title(n) for n in images},
                      suptitle="meshpress compare: the same taps, six ways of filling the surface (one colour scale)")

@@ -89,6 +89,17 @@ class Field(ABC):
             out[i] = taps.values[i] - other.at_points(taps.points[i : i + 1])[0]
         return out
 
+    def loo_residuals_nested(self) -> np.ndarray:
+        """(n,) float: leave-one-out residuals of the whole fitting procedure, hyperparameter choice included.
+
+        A method that chooses a setting by the lowest leave-one-out error
+        overrides this with the residuals of the choice re-made without each tap
+        (nested cross-validation; Cawley & Talbot, JMLR 11 (2010) 2079-2107).
+        Here, for methods with no setting chosen from the readings' cross-
+        validation, it is the plain leave-one-out.
+        """
+        return self.loo_residuals()
+
     def get_params(self) -> dict:
         """The constructor settings (scikit-learn style): attributes named like __init__'s arguments."""
         import inspect

@@ -55,6 +55,66 @@ def solve_with_loo(K, P, d, smoothing=0.0):
     return c, a, c / np.diag(Ainv)[:n]
 
 
+def solve_with_nested(K, P, d, smoothing=0.0):
+    """:func:`solve_with_loo`, and for each tap the leave-one-out error of the fit without it.
+
+    Parameters
+    ----------
+    K, P, d, smoothing
+        As for :func:`solve_with_loo`.
+
+    Returns
+    -------
+    c, a, loo
+        As for :func:`solve_with_loo`.
+    inner : (n,) float
+        ``inner[i]``: RMS over the taps j != i of the leave-one-out residuals of
+        the fit to every tap but i (module docstring); nan where that fit is
+        undetermined.
+    """
+    n = len(d)
+    A = saddle_matrix(K, P, smoothing)
+    G = np.linalg.inv(A)
+    z = G[:, :n] @ d
+    c, a = z[:n], z[n:]
+    g = np.diag(G)[:n]
+    Gn = G[:n, :n]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        # row i, column j: the fit without tap i, Rippa's residual at tap j
+        E = (c[None, :] - Gn.T * (c / g)[:, None]) / (g[None, :] - Gn.T * Gn / g[:, None])
+    E[np.arange(n), np.arange(n)] = np.nan
+    E[~np.isfinite(E)] = np.nan
+    with np.errstate(invalid="ignore"):
+        ok = np.isfinite(E).sum(axis=1)
+        inner = np.sqrt(np.nansum(E**2, axis=1) / np.where(ok > 0, ok, 1))
+    inner[ok < n - 1] = np.nan
+    return c, a, c / g, inner
+
+
+def nested_residuals(loos, inners):
+    """Nested leave-one-out residuals of a choice among candidate fits by the lowest LOO RMS.
+
+    Parameters
+    ----------
+    loos : (m, n) float
+        Leave-one-out residuals of each of m candidates (fits to all n taps).
+    inners : (m, n) float
+        ``inners[k, i]``: candidate k's LOO RMS without tap i (:func:`solve_with_nested`).
+
+    Returns
+    -------
+    (n,) float
+        For each tap i, the LOO residual of the candidate chosen without it; nan
+        where no candidate could be scored without tap i.
+    """
+    loos, inners = np.atleast_2d(loos), np.atleast_2d(inners)
+    n = loos.shape[1]
+    score = np.where(np.isfinite(inners), inners, np.inf)
+    pick = np.argmin(score, axis=0)
+    out = loos[pick, np.arange(n)]
+    return np.where(np.isfinite(score[pick, np.arange(n)]), out, np.nan)
+
+
 def monomials(x, degree):
     """(k, p) float: monomials of total degree <= ``degree`` (0-2) at points (k, 3), on
     centred and scaled coordinates (as scipy does; the interpolant is unchanged)."""

@@ -18,7 +18,7 @@ import numpy as np
 
 from .base import Field
 from .bounds import BoundedMixin
-from .surface_common import TARGET_FACES, check_common, prepare
+from .surface_common import TARGET_FACES, by_point_chunks, check_common, prepare
 
 
 class NearestTapField(BoundedMixin, Field):
@@ -58,8 +58,9 @@ class NearestTapField(BoundedMixin, Field):
     def at_points(self, points):
         self._check()
         f, b = self.work_.locate(points)
-        d = self.work_.distance.at_points(self.distances_, f, b)
-        return self.taps_.values[np.argmin(d, axis=0)]
+        dist = self.work_.distance
+        return by_point_chunks(f, b, lambda fc, bc: self.taps_.values[np.argmin(
+            dist.at_points(self.distances_, fc, bc), axis=0)])
 
     def loo_residuals(self):
         """(n,) float: reading minus the reading of the next-nearest tap (exact leave-one-out)."""

@@ -58,6 +58,7 @@ class RegionalField(Field):
         tap_region = index[taps.faces]
         self.parts_ = []
         self.loo_ = np.full(len(taps), np.nan)
+        self.loo_nested_ = np.full(len(taps), np.nan)
         values = np.empty(body.n_faces)
         area = body.face_areas
         total = float(area.sum())
@@ -83,13 +84,14 @@ class RegionalField(Field):
             if tm.sum() == 1:
                 values[fm] = st.values[0]
                 i = np.flatnonzero(tm)[0]
-                self.loo_[i] = taps.values[i] - self._empty_prediction(taps, i)
+                self.loo_[i] = self.loo_nested_[i] = taps.values[i] - self._empty_prediction(taps, i)
                 self.parts_.append((name, None))
                 continue
             inner = make_field(self.method, **self.settings)
             inner.fit(sub, st, progress=progress)
             values[fm] = inner.face_values(progress=progress)
             self.loo_[tm] = inner.loo_residuals()
+            self.loo_nested_[tm] = inner.loo_residuals_nested()
             extrap += share * getattr(inner, "extrapolated_share_", 0.0)
             clamped += share * getattr(inner, "clamped_share_", 0.0)
             self.warnings_ += [f"region {name}: {w}" for w in inner.warnings_]
@@ -116,6 +118,11 @@ class RegionalField(Field):
         """(n,) float: leave-one-out inside each region (exact for the inner method's closed forms)."""
         self._check()
         return self.loo_.copy()
+
+    def loo_residuals_nested(self):
+        """(n,) float: the inner method's nested leave-one-out inside each region."""
+        self._check()
+        return self.loo_nested_.copy()
 
     def get_params(self):
         return {"method": self.method, "regions": self.regions, "empty_value": self.empty_value,

@@ -17,6 +17,34 @@ def check_common(field):
         raise InputError("no taps to interpolate")
 
 
+def vertex_normals(body):
+    """(n, 3) float: area-weighted unit vertex normals of ``body`` (zero where no face has area)."""
+    vn = np.zeros_like(body.vertices)
+    np.add.at(vn, body.faces.ravel(), np.repeat(body.area_vectors, 3, axis=0))
+    size = np.linalg.norm(vn, axis=1, keepdims=True)
+    return np.divide(vn, size, out=np.zeros_like(vn), where=size > 0)
+
+
+def normals_at(vnormals, faces, face_index, barycentric):
+    """(k, 3) float: unit normals at surface points, the barycentric blend of their face's vertex normals."""
+    n = (vnormals[faces[face_index]] * barycentric[..., None]).sum(axis=1)
+    size = np.linalg.norm(n, axis=1, keepdims=True)
+    return np.divide(n, size, out=np.zeros_like(n), where=size > 0)
+
+
+#: Surface points evaluated at a time from the tap-to-vertex distances: interpolating them to j points makes a
+#: (taps, j, 3) temporary, 0.3 GB for 200 taps at the 61,000 integration clusters of a 1M-face body.
+POINT_CHUNK = 8192
+
+
+def by_point_chunks(face_index, barycentric, fn, chunk=POINT_CHUNK):
+    """(j,) float: ``fn(f, b)`` over chunks of surface points given by faces (j,) and barycentrics (j, 3)."""
+    out = np.empty(len(face_index))
+    for s in range(0, len(face_index), chunk):
+        out[s:s + chunk] = fn(face_index[s:s + chunk], barycentric[s:s + chunk])
+    return out
+
+
 def prepare(field, body, taps, progress):
     """Working copy, tap locations on it and tap -> vertex surface distances (k, n_work)."""
     wm = work_mesh(body, field.work_faces, getattr(field, "max_edge_ratio", None))
@@ -33,4 +61,4 @@ def prepare(field, body, taps, progress):
     return wm, f, b
 
 
-__all__ = ["TARGET_FACES", "check_common", "prepare"]
+__all__ = ["TARGET_FACES", "check_common", "prepare", "vertex_normals", "normals_at", "by_point_chunks"]
