@@ -149,7 +149,7 @@ def greedy_plan(cov, a, n_add, *, candidates, blocked_from=(), distance=None, mi
 
 def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrier=None, n_patches=2500,
               q=None, ref_area=None, boxes=(), excluded_faces=None, min_spacing=0.05, length_scale=None,
-              kernel="exponential", regions=None, progress=None) -> Plan:
+              kernel="exponential", regions=None, orientation: bool = False, progress=None) -> Plan:
     """Propose ``n_add`` tap positions that cut the chosen figures' uncertainty most.
 
     Parameters
@@ -176,6 +176,9 @@ def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrie
         exponential kernel is used.
     regions : str or (m,) array, optional
         Regions modelled as independent fields (:func:`~meshpress.uncertainty.compute_uncertainty`).
+    orientation : bool
+        The normals' factor in the model's correlation (needs three taps to
+        fit it; default off, docs/uncertainty.md).
 
     Returns
     -------
@@ -205,7 +208,8 @@ def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrie
     a = carrier.fine_weights(G, B)
     n_taps = 0 if taps is None else len(taps)
     if n_taps >= 3:
-        gp = SurfaceGP.on_carrier(carrier, kernel=kernel, length_scale=length_scale, groups=groups)
+        gp = SurfaceGP.on_carrier(carrier, kernel=kernel, length_scale=length_scale, groups=groups,
+                                  orientation=orientation)
         gp.fit(carrier.points_matrix(taps.points), taps.values)
         cov = gp.posterior_cov()
         noise = gp.nugget_

@@ -437,7 +437,7 @@ def add_bands(result: TestResult, progress: Progress | None = None) -> TestResul
         with progress.step(f"bands of {name}"):
             c.bands = compute_uncertainty(body, taps.with_values(c.cp), q=c.load.q_Pa, ref_area=c.load.ref_area_m2,
                                           meas=c.errors.measurement(), carrier=carrier, field=c.load.field,
-                                          kernel=st.kernel, progress=progress)
+                                          kernel=st.kernel, orientation=st.orientation, progress=progress)
         if any(r.reading.samples < 2 for r in c.runs):
             c.bands.notes.append("a run has a single sample: its readings' spread is unknown and taken as zero")
     result.changes = []
@@ -448,7 +448,8 @@ def add_bands(result: TestResult, progress: Progress | None = None) -> TestResul
             # q differs between configurations, so only the coefficients' change is a linear figure (q=None).
             ch = compute_change(body, taps, a.cp, b.cp, err_base=a.errors, err_other=b.errors,
                                 correlation=st.error_correlation, q=None, ref_area=a.load.ref_area_m2,
-                                carrier=carrier, kernel=st.kernel, base_result=a.bands, other_result=b.bands,
+                                carrier=carrier, kernel=st.kernel, orientation=st.orientation, base_result=a.bands,
+                                other_result=b.bands,
                                 field_change=None if fa is None or fb is None else np.asarray(fb) - np.asarray(fa),
                                 base_label=a.name, other_label=b.name, progress=progress)
         result.changes.append(ch)

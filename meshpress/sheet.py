@@ -39,7 +39,7 @@ AIR_KEYS = {"temperature_C", "pressure", "humidity_percent", "co2_ppm"}
 FIELD_KEYS = {"method", "kernel", "smoothing"}
 SPEEDS_KEYS = {"from", "to", "step"}
 COMPARE_KEYS = {"base", "other"}
-UNCERTAINTY_KEYS = {"bands", "patches", "kernel", "sensor_accuracy", "full_scale", "error_correlation"}
+UNCERTAINTY_KEYS = {"bands", "patches", "kernel", "orientation", "sensor_accuracy", "full_scale", "error_correlation"}
 REFERENCE_KEYS = {"port", "cp", "column"}
 FORMATS = ("auto", "wide", "long")
 
@@ -104,6 +104,8 @@ class BandSettings:
         Carrier patches for the covariance.
     kernel : str
         Kriging correlation on surface distance.
+    orientation : bool
+        The normals' factor in the kriging correlation (``--orientation-gp``).
     sensor_u_Pa : float
         Standard uncertainty of each tap sensor, Pa (the stated accuracy read
         as a rectangular bound, GUM 4.3.7); systematic: the same in every run.
@@ -114,6 +116,7 @@ class BandSettings:
     enabled: bool = False
     patches: int = 2500
     kernel: str = "auto"
+    orientation: bool = True
     sensor_u_Pa: float = 0.0
     error_correlation: float = 1.0
 
@@ -513,6 +516,9 @@ def _bands(cx, d) -> BandSettings:
 
     if kernel not in ("auto",) + KERNELS:
         raise cx.err(f"{where}.kernel", f"{kernel!r} is not one of: {', '.join(('auto',) + KERNELS)}")
+    orientation = d.get("orientation", True)
+    if not isinstance(orientation, bool):
+        raise cx.err(f"{where}.orientation", f"{orientation!r} must be true or false")
     sensor = 0.0
     if "sensor_accuracy" in d:
         key = f"{where}.sensor_accuracy"
@@ -538,7 +544,7 @@ def _bands(cx, d) -> BandSettings:
     rho = _number(cx, d, "error_correlation", where, default=1.0)
     if not 0.0 <= rho <= 1.0:
         raise cx.err(f"{where}.error_correlation", "must be between 0 and 1")
-    return BandSettings(enabled, int(patches), kernel, sensor, rho)
+    return BandSettings(enabled, int(patches), kernel, orientation, sensor, rho)
 
 
 def _speeds(cx, d):

@@ -373,7 +373,7 @@ def report_numbers(result: UncertaintyResult, figure: str = "CL") -> dict:
 
 def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | None = None, carrier=None,
                         n_patches: int = 2500, field=None, kernel: str = "auto", length_scale=None,
-                        trend: str | None = None, regions=None, orientation: bool = False,
+                        trend: str | None = None, regions=None, orientation: bool = True,
                         progress=None) -> UncertaintyResult:
     """Kriging estimate and band of every figure.
 
@@ -403,6 +403,10 @@ def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | Non
         Region specification (:func:`meshpress.regions.face_regions`): the
         model treats the regions as independent fields, as the ``+regions``
         field methods do.
+    orientation : bool
+        Correlation also falls with the angle between the surface normals,
+        at a scale fitted with the rest (:class:`~meshpress.kriging.SurfaceGP`;
+        default on, docs/uncertainty.md measures both).
 
     Returns
     -------

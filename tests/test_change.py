@@ -86,7 +86,9 @@ def test_change_estimate_is_linear_in_the_readings(case):
         y = yo - yb + rng.normal(0, 0.01, len(taps))
         fixed = SurfaceGP(car.distance, kernel=gp.kernel_, spectrum=gp.spectrum, length_scale=gp.length_scale_,
                           variance=gp.variance_, nugget=gp.nugget_, mean_variance=gp.mean_variance_,
-                          normals=gp.normals, trend_variance=gp.trend_variance_).fit(T, y, vb + vo - 2 * cab)
+                          normals=gp.normals, trend_variance=gp.trend_variance_, orientation=gp.orientation,
+                          normal_scale=gp.normal_scale_ if gp.orientation else None,
+                          trend=gp.use_trend).fit(T, y, vb + vo - 2 * cab)
         np.testing.assert_allclose(fixed.figures(a)[0], y @ ch.tap_weights, rtol=1e-7, atol=1e-10)
 
 

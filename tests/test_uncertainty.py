@@ -182,9 +182,10 @@ def test_band_covers_sphere_truth_and_reports(sphere):
     res = compute_uncertainty(sphere, taps, ref_area=np.pi, field=make_field("rbf").fit(sphere, taps))
     for k, n in enumerate(names):
         b = res.band(n)
-        # Sphere in potential flow: zero force (d'Alembert) -- every figure should be inside its band (to round-off:
-        # with exact readings a smooth kernel can make the band of a figure that is zero by symmetry ~1e-9 wide).
-        assert b.lo95 - 1e-6 <= truth[k] <= b.hi95 + 1e-6, n
+        # Sphere in potential flow: zero force (d'Alembert) -- every figure within 3 u of it (a 99.7 % check: six
+        # 95 % checks at once would fail one time in four by chance; plus round-off, since with exact readings a
+        # smooth kernel can make the band of a figure that is zero by symmetry ~1e-9 wide).
+        assert abs(b.value - truth[k]) <= 3 * b.u + 1e-6, n
     d = res.to_dict()
     assert {"CL", "CL_u", "CL_lo95", "CL_hi95", "uncertainty_budget"} <= set(d)
     hook = report_numbers(res, "CL")
@@ -321,8 +322,8 @@ def test_regions_stop_the_band_leaking_between_plates():
     top = np.array([(x, y, 0.01) for x in gx for y in gx])
     bot = top * [1, 1, -1] + [0.06, 0.06, 0]
     taps = make_taps(body, np.vstack([top, bot]), np.r_[-1.0 - 0.5 * top[:, 0], np.full(16, 1.0)])
-    split = compute_uncertainty(body, taps, ref_area=1.0, regions="normal", n_patches=800).band("CL")
-    whole = compute_uncertainty(body, taps, ref_area=1.0, n_patches=800).band("CL")
+    split = compute_uncertainty(body, taps, ref_area=1.0, regions="normal", n_patches=800, orientation=False).band("CL")
+    whole = compute_uncertainty(body, taps, ref_area=1.0, n_patches=800, orientation=False).band("CL")
     assert split.value == pytest.approx(2.0, rel=0.02)
     assert split.lo95 <= 2.0 <= split.hi95
     assert abs(split.value - 2.0) < abs(whole.value - 2.0)
@@ -366,7 +367,7 @@ def test_orientation_keeps_the_two_faces_of_a_plate_apart():
     bot = top * [1, 1, -1] + [0.06, 0.06, 0]
     taps = make_taps(body, np.vstack([top, bot]), np.r_[-1.0 - 0.5 * top[:, 0], np.full(16, 1.0)])
     car = Carrier(body, 800)
-    plain = compute_uncertainty(body, taps, ref_area=1.0, carrier=car).band("CL")
+    plain = compute_uncertainty(body, taps, ref_area=1.0, carrier=car, orientation=False).band("CL")
     turned = compute_uncertainty(body, taps, ref_area=1.0, carrier=car, orientation=True)
     b = turned.band("CL")
     assert abs(b.value - 2.0) < 0.5 * abs(plain.value - 2.0)

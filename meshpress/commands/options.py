@@ -47,6 +47,13 @@ def add_gp_kernel_option(g, default: str, about: str):
                    help=f"kriging correlation along the surface (default {default}: {about})")
 
 
+def add_gp_orientation_option(g, default: bool):
+    """``--orientation-gp on|off``: the normals' factor in the kriging correlation."""
+    g.add_argument("--orientation-gp", default="on" if default else "off", choices=("on", "off"),
+                   help="kriging correlation also falls with the angle between the surface normals, at a scale "
+                        f"fitted to the taps (default {'on' if default else 'off'}; docs/uncertainty.md)")
+
+
 def add_field_options(p, method_help=None):
     """Field options; ``method_help`` replaces the help of ``--method`` and makes its default None (so a
     command can tell whether it was given)."""

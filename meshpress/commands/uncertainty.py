@@ -9,8 +9,8 @@ change, in which the errors the two runs share cancel (meshpress.change).
 
 from __future__ import annotations
 
-from .options import (add_body_options, add_field_options, add_flow_options, add_gp_kernel_option, load_inputs,
-                      method_settings, speed_mps)
+from .options import (add_body_options, add_field_options, add_flow_options, add_gp_kernel_option,
+                      add_gp_orientation_option, load_inputs, method_settings, speed_mps)
 
 U_COLUMNS = ("u", "p_u", "cp_u", "sem", "p_sem", "cp_sem")
 
@@ -43,6 +43,7 @@ def add_parser(sub):
                                                                         "(default 2500)")
     add_gp_kernel_option(g, "auto", "the best marginal likelihood among exponential and the Laplace-Beltrami "
                                     "Matérn 1/2, 3/2, 5/2 and heat kernels")
+    add_gp_orientation_option(g, True)
     c = p.add_argument_group("change from a baseline (docs/uncertainty.md)")
     c.add_argument("--baseline", metavar="BASE_TAPS",
                    help="tap table of the baseline configuration on the same taps: every figure's change "
@@ -173,7 +174,7 @@ def run(args) -> int:
     with progress.step("kriging bands"):
         unc = compute_uncertainty(body, taps, q=q, ref_area=loads.ref_area_m2, meas=meas, field=field,
                                   n_patches=args.patches, kernel=args.kernel_gp, carrier=carrier, regions=args.regions,
-                                  progress=progress)
+                                  orientation=args.orientation_gp == "on", progress=progress)
     change = None
     if args.baseline:
         from ..change import ErrorSources, compute_change
@@ -189,11 +190,12 @@ def run(args) -> int:
         with progress.step("kriging bands of the baseline and of the change"):
             base_unc = compute_uncertainty(body, base_taps, q=q, ref_area=loads.ref_area_m2,
                                            meas=e_base.measurement(), field=base_field, carrier=carrier,
-                                           kernel=args.kernel_gp, regions=args.regions, progress=progress)
+                                           kernel=args.kernel_gp, regions=args.regions,
+                                           orientation=args.orientation_gp == "on", progress=progress)
             change = compute_change(body, taps, base_taps.values, taps.values, err_base=e_base, err_other=e_other,
                                     correlation=args.error_correlation, q=q, ref_area=loads.ref_area_m2,
                                     carrier=carrier, kernel=args.kernel_gp, base_result=base_unc, other_result=unc,
-                                    regions=args.regions,
+                                    regions=args.regions, orientation=args.orientation_gp == "on",
                                     field_change=(_face_values(loads) - _face_values(base_loads)),
                                     base_label=str(args.baseline), other_label=str(args.taps), progress=progress)
         if dropped:

@@ -35,6 +35,9 @@ class KrigingField(BoundedMixin, Field):
         Carrier size (patches of the covariance).
     trend : {None, "normal"}
         ``"normal"`` adds a mean linear in the surface normal.
+    orientation : bool
+        Correlation also falls with the angle between the surface normals
+        (:class:`meshpress.kriging.SurfaceGP`).
     extrapolation : {"clamp", "decay", "none"}
         Bounding beyond the taps, as for every method (:mod:`meshpress.fields.bounds`).
     far_value : float, optional
@@ -43,10 +46,12 @@ class KrigingField(BoundedMixin, Field):
 
     name = "kriging"
 
-    def __init__(self, kernel="exponential", patches=2500, trend=None, extrapolation="clamp", far_value=None):
+    def __init__(self, kernel="exponential", patches=2500, trend=None, orientation=False, extrapolation="clamp",
+                 far_value=None):
         self.kernel = kernel
         self.patches = patches
         self.trend = trend
+        self.orientation = orientation
         self.extrapolation = extrapolation
         self.far_value = far_value
 
@@ -61,7 +66,7 @@ class KrigingField(BoundedMixin, Field):
         if self.trend not in (None, "normal"):  # before the carrier, which takes seconds
             raise InputError(f"kriging trend must be 'normal' or none, got {self.trend!r}")
         carrier = Carrier(body, self.patches, progress=progress)
-        gp = SurfaceGP.on_carrier(carrier, kernel=self.kernel, trend=self.trend)
+        gp = SurfaceGP.on_carrier(carrier, kernel=self.kernel, trend=self.trend, orientation=self.orientation)
         gp.fit(carrier.points_matrix(taps.points), taps.values)
         self.carrier_, self.gp_ = carrier, gp
         self.node_values_ = gp.node_mean()
