@@ -8,7 +8,9 @@ CL, CLF, CLR is compared with the truth.  Reported: mean absolute actual error
 over the cases (and the mean predicted u), for 40 taps, 40 + planned, 40 +
 random.  The RBF field's errors are given for information.
 
-Run: ``python scripts/bench_planning.py [n_cases]`` (default 12).
+Run: ``python scripts/bench_planning.py [n_cases] [planner_orientation]`` (default 12, off; "on" gives the
+planner's model the orientation factor too).  The estimate is ``compute_uncertainty``'s default (orientation
+factor on).
 """
 
 from __future__ import annotations
@@ -33,6 +35,7 @@ FIGS = ("CL", "CLF", "CLR")
 
 def main():
     n_cases = int(sys.argv[1]) if len(sys.argv) > 1 else 12
+    orient = (sys.argv[2] if len(sys.argv) > 2 else "off") == "on"
     rng = np.random.default_rng(11)
     body, cp, _ = tc.car()
     area = body.frontal_area()
@@ -47,7 +50,8 @@ def main():
         base = tc.practical_points("car", body, rng, n=40)
         t0 = tc.make_taps(body, cp, base)
         t = time.perf_counter()
-        plan = plan_taps(body, t0, figures=FIGS, n_add=20, carrier=car, ref_area=area, min_spacing=0.1)
+        plan = plan_taps(body, t0, figures=FIGS, n_add=20, carrier=car, ref_area=area, min_spacing=0.1,
+                         orientation=orient)
         t_plan.append(time.perf_counter() - t)
         sets = {"base40": base, "planned": np.vstack([base, plan.points]),
                 "random": np.vstack([base, tc.random_surface_points(body, 20, rng)])}
@@ -62,7 +66,7 @@ def main():
                 res_rbf[k][f].append(abs(b.field_value - truth[f]))
         print(f"case {c + 1}/{n_cases}: " + "  ".join(
             f"{k} " + ",".join(f"{res[k][f][-1]:.3f}" for f in FIGS) for k in res), flush=True)
-    out = {"n_cases": n_cases, "median_plan_s": float(np.median(t_plan)), "truth": {f: truth[f] for f in FIGS}}
+    out = {"n_cases": n_cases, "planner_orientation": orient, "median_plan_s": float(np.median(t_plan)), "truth": {f: truth[f] for f in FIGS}}
     for k in res:
         out[k] = {f: {"mean_abs_err": float(np.mean(res[k][f])), "mean_u": float(np.mean(res_u[k][f])),
                       "rbf_mean_abs_err": float(np.mean(res_rbf[k][f]))} for f in FIGS}
@@ -71,7 +75,8 @@ def main():
         p, r = out["planned"][f]["mean_abs_err"], out["random"][f]["mean_abs_err"]
         print(f"{f}: mean |error| base {out['base40'][f]['mean_abs_err']:.4f}  +20 planned {p:.4f}  "
               f"+20 random {r:.4f}  planned/random {p / r:.2f}")
-    (Path(__file__).resolve().parent / f"bench_planning_{n_cases}.json").write_text(json.dumps(out, indent=1))
+    tag = "_orientation" if orient else ""
+    (Path(__file__).resolve().parent / f"bench_planning_{n_cases}{tag}.json").write_text(json.dumps(out, indent=1))
 
 
 if __name__ == "__main__":
