@@ -84,7 +84,7 @@ def speed_factor(unit: str, where: str = "") -> float:
 
 
 def parse_quantity(text: str, default_unit: str, table: dict[str, str], kind: str, where: str = ""):
-    """Split ``"120 km/h"`` or ``"120"`` into (value, unit) and check both.
+    """Split ``"120 km/h"``, ``"120km/h"`` or ``"120"`` into (value, unit) and check both.
 
     Returns
     -------
@@ -93,12 +93,14 @@ def parse_quantity(text: str, default_unit: str, table: dict[str, str], kind: st
     unit : str
         The unit as written, or ``default_unit``.
     """
-    parts = str(text).strip().split(None, 1)
-    try:
-        value = float(parts[0])
-    except (ValueError, IndexError):
-        raise InputError(f"{where}{kind} {text!r} is not a number") from None
-    unit = parts[1].strip() if len(parts) > 1 else default_unit
+    import re
+
+    # The number and the unit, with or without a space between them ("120 km/h", "120km/h", "-2.5e1 mm").
+    m = re.fullmatch(r"\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*", str(text))
+    if m is None:
+        raise InputError(f"{where}{kind} {text!r} is not a number")
+    value = float(m.group(1))
+    unit = m.group(2) or default_unit
     _factor(unit, table, kind, _registry_si(kind), where)
     return value, unit
 

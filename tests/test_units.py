@@ -35,3 +35,20 @@ def test_lengths_and_speeds():
 def test_nonsense_pressure_unit(bad):
     with pytest.raises(InputError, match="unknown pressure unit"):
         pressure_factor(bad)
+
+
+@pytest.mark.parametrize("text,value,unit", [("100 km/h", 100.0, "km/h"), ("100km/h", 100.0, "km/h"),
+                                             (" 27.8 ", 27.8, "m/s"), ("-2.5e1 m/s", -25.0, "m/s")])
+def test_quantities_with_or_without_a_space(text, value, unit):
+    # How people write quantities: SI Brochure 5.4.3 puts a space between number and unit, common practice often not.
+    from meshpress.units import SPEED_UNITS, parse_quantity
+
+    assert parse_quantity(text, "m/s", SPEED_UNITS, "speed") == (value, unit)
+
+
+@pytest.mark.parametrize("bad", ["fast", "nan", "inf km/h", "km/h"])
+def test_not_a_number(bad):
+    from meshpress.units import SPEED_UNITS, parse_quantity
+
+    with pytest.raises(InputError, match="is not a number"):
+        parse_quantity(bad, "m/s", SPEED_UNITS, "speed")
