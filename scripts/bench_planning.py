@@ -8,8 +8,9 @@ CL, CLF, CLR is compared with the truth.  Reported: mean absolute actual error
 over the cases (and the mean predicted u), for 40 taps, 40 + planned, 40 +
 random.  The RBF field's errors are given for information.
 
-Run: ``python scripts/bench_planning.py [n_cases] [planner_orientation]`` (default 12, off; "on" gives the
-planner's model the orientation factor too).  The estimate is ``compute_uncertainty``'s default (orientation
+Run: ``python scripts/bench_planning.py [n_cases] [planner_orientation] [n_random]`` (default 12, off, 1;
+"on" gives the planner's model the orientation factor too; ``n_random`` draws of the 20 random taps per case,
+whose errors are averaged, so the random side of the comparison is less noisy).  The estimate is ``compute_uncertainty``'s default (orientation
 factor on).
 """
 
@@ -36,6 +37,7 @@ FIGS = ("CL", "CLF", "CLR")
 def main():
     n_cases = int(sys.argv[1]) if len(sys.argv) > 1 else 12
     orient = (sys.argv[2] if len(sys.argv) > 2 else "off") == "on"
+    n_random = int(sys.argv[3]) if len(sys.argv) > 3 else 1
     rng = np.random.default_rng(11)
     body, cp, _ = tc.car()
     area = body.frontal_area()
@@ -53,20 +55,25 @@ def main():
         plan = plan_taps(body, t0, figures=FIGS, n_add=20, carrier=car, ref_area=area, min_spacing=0.1,
                          orientation=orient)
         t_plan.append(time.perf_counter() - t)
-        sets = {"base40": base, "planned": np.vstack([base, plan.points]),
-                "random": np.vstack([base, tc.random_surface_points(body, 20, rng)])}
-        for k, pts in sets.items():
+        sets = [("base40", base), ("planned", np.vstack([base, plan.points]))]
+        sets += [("random", np.vstack([base, tc.random_surface_points(body, 20, rng)])) for _ in range(n_random)]
+        acc = {k: {f: [] for f in FIGS} for k in res}
+        for k, pts in sets:
             taps = tc.make_taps(body, cp, pts)
             rbf = make_field("rbf").fit(body, taps)
             r = compute_uncertainty(body, taps, ref_area=area, carrier=car, field=rbf)
             for f in FIGS:
                 b = r.band(f)
-                res[k][f].append(abs(b.value - truth[f]))
-                res_u[k][f].append(b.u)
-                res_rbf[k][f].append(abs(b.field_value - truth[f]))
+                acc[k][f].append((abs(b.value - truth[f]), b.u, abs(b.field_value - truth[f])))
+        for k in res:  # one entry per case: the mean over the random draws
+            for f in FIGS:
+                e, u, e_rbf = np.mean(acc[k][f], axis=0)
+                res[k][f].append(e)
+                res_u[k][f].append(u)
+                res_rbf[k][f].append(e_rbf)
         print(f"case {c + 1}/{n_cases}: " + "  ".join(
             f"{k} " + ",".join(f"{res[k][f][-1]:.3f}" for f in FIGS) for k in res), flush=True)
-    out = {"n_cases": n_cases, "planner_orientation": orient, "median_plan_s": float(np.median(t_plan)), "truth": {f: truth[f] for f in FIGS}}
+    out = {"n_cases": n_cases, "planner_orientation": orient, "n_random": n_random, "median_plan_s": float(np.median(t_plan)), "truth": {f: truth[f] for f in FIGS}}
     for k in res:
         out[k] = {f: {"mean_abs_err": float(np.mean(res[k][f])), "mean_u": float(np.mean(res_u[k][f])),
                       "rbf_mean_abs_err": float(np.mean(res_rbf[k][f]))} for f in FIGS}
@@ -75,7 +82,7 @@ def main():
         p, r = out["planned"][f]["mean_abs_err"], out["random"][f]["mean_abs_err"]
         print(f"{f}: mean |error| base {out['base40'][f]['mean_abs_err']:.4f}  +20 planned {p:.4f}  "
               f"+20 random {r:.4f}  planned/random {p / r:.2f}")
-    tag = "_orientation" if orient else ""
+    tag = ("_orientation" if orient else "") + (f"_r{n_random}" if n_random > 1 else "")
     (Path(__file__).resolve().parent / f"bench_planning_{n_cases}{tag}.json").write_text(json.dumps(out, indent=1))
 
 

@@ -373,3 +373,27 @@ def test_orientation_keeps_the_two_faces_of_a_plate_apart():
     assert abs(b.value - 2.0) < 0.5 * abs(plain.value - 2.0)
     assert b.lo95 <= 2.0 <= b.hi95
     assert "orientation" in turned.model
+
+
+def test_normal_trend_matches_scikit_learn_kernels_on_a_line():
+    # A mean beta . n with beta ~ N(0, t^2 I) is the linear kernel t^2 n.n' added to the covariance (Rasmussen and
+    # Williams 2006, sec. 2.7): reference Gram matrices from scikit-learn's Matern (position) and DotProduct
+    # (sigma_0 = 0, on the unit normal), posterior by R&W eqs. 2.23-2.24.
+    from sklearn.gaussian_process.kernels import DotProduct, Matern
+
+    x = np.linspace(0.0, 2.0, 61)
+    d = np.abs(x[:, None] - x[None, :])
+    phi = np.pi * np.clip(x - 0.5, 0, 1)
+    nrm = np.column_stack([np.cos(phi), np.sin(phi), np.zeros_like(x)])
+    idx = np.array([2, 9, 17, 25, 31, 40, 47, 58])
+    y = 0.8 * np.cos(phi[idx]) - 0.3 * np.sin(phi[idx]) + 0.05 * x[idx]
+    T = np.zeros((len(idx), len(x)))
+    T[np.arange(len(idx)), idx] = 1.0
+    gp = SurfaceGP(d, kernel="exponential", length_scale=0.5, variance=0.2, nugget=1e-3, mean_variance=4.0,
+                   normals=nrm, trend_variance=0.9).fit(T, y)
+    K = 4.0 + 0.2 * Matern(0.5, nu=0.5)(x[:, None]) + 0.9 * DotProduct(sigma_0=0.0, sigma_0_bounds="fixed")(nrm)
+    S = K[np.ix_(idx, idx)] + 1e-3 * np.eye(len(idx))
+    mu = K[:, idx] @ np.linalg.solve(S, y)
+    var = np.diag(K) - np.einsum("ij,ji->i", K[:, idx], np.linalg.solve(S, K[idx, :]))
+    np.testing.assert_allclose(gp.node_mean(), mu, atol=1e-8)
+    np.testing.assert_allclose(gp.node_var(), var, atol=1e-8)
