@@ -153,7 +153,7 @@ def missing_libraries() -> list[str]:
 
 
 def write_report(run, out_dir, *, protect=(), progress=None, title=None, demo_note=None, images=True,
-                 **picture_kw) -> ReportFiles:
+                 sections=(), extra_images=None, **picture_kw) -> ReportFiles:
     """Write the report folder (see the module docstring).
 
     Parameters
@@ -171,6 +171,11 @@ def write_report(run, out_dir, *, protect=(), progress=None, title=None, demo_no
         A banner line (e.g. that the data are invented).
     images : bool
         Also write every picture as a PNG under ``images/``.
+    sections : sequence of (str, str)
+        Further sections, (heading, trusted HTML), placed after the figures
+        (e.g. :func:`meshpress.bandreport.bands_section_html`).
+    extra_images : dict, optional
+        name -> PNG bytes written under ``images/`` too.
     **picture_kw
         Passed to :func:`report_pictures` (``views``, ``view_size``, ``tap_names``, ``arrows``, ``quantity``).
     """
@@ -204,12 +209,12 @@ def write_report(run, out_dir, *, protect=(), progress=None, title=None, demo_no
             from .results import replace_into
 
             (out / "images").mkdir(exist_ok=True)
-            for group in ("plots", "views"):
-                for name, png in pics[group].items():
-                    p = out / "images" / f"{group[:-1]}_{name}.png"
-                    replace_into(p, lambda tmp, png=png: Path(tmp).write_bytes(png))
-                    files.images.append(p)
-        page = render_html(result, pics, rows, title=title, demo_note=demo_note,
+            named = [(f"{group[:-1]}_{name}", png) for group in ("plots", "views") for name, png in pics[group].items()]
+            for name, png in named + list((extra_images or {}).items()):
+                p = out / "images" / f"{name}.png"
+                replace_into(p, lambda tmp, png=png: Path(tmp).write_bytes(png))
+                files.images.append(p)
+        page = render_html(result, pics, rows, title=title, demo_note=demo_note, sections=sections,
                            written=[files.json.name, files.body.name, files.taps.name]
                            + (["images/"] if images else []))
         write_atomic(files.html, page, protect=protect)
@@ -329,7 +334,7 @@ def _tap_table(rows, unit) -> str:
     return "<table>" + head + "".join(body) + "</table>"
 
 
-def render_html(result, pics, rows, *, title=None, demo_note=None, written=()) -> str:
+def render_html(result, pics, rows, *, title=None, demo_note=None, written=(), sections=()) -> str:
     """The report page as one string (see :func:`write_report`)."""
     r = result
     mesh_name = Path(str(r.inputs.get("mesh", "mesh"))).name
@@ -367,6 +372,9 @@ def render_html(result, pics, rows, *, title=None, demo_note=None, written=()) -
         f"{r.ref_area_m2:.3f}&nbsp;m\u00b2 ({_esc(r.ref_area_source)}); wheelbase {_num(r.wheelbase_m, '.3f', 'm')}; "
         f"reference pressure subtracted p_ref = {r.p_ref:g} ({'Pa' if r.value_kind == 'p' else 'Cp'}). "
         "Coefficients: CL = L/(q A), CPM = M<sub>y</sub>/(q A WB), CLF = CL/2 + CPM, CLR = CL/2 &minus; CPM.</p>")
+    for heading, body_html in sections:
+        parts.append(f"<h2>{_esc(heading)}</h2>")
+        parts.append(body_html)
     warns = list(r.warnings) + list(pics.get("notes", []))
     parts.append("<h2>Warnings</h2>")
     if warns:

@@ -39,6 +39,9 @@ ZOOM = {"side": 1.75, "top": 1.45, "bottom": 1.45, "front": 1.9, "rear": 1.9, "t
 QUANTITIES = ("cp", "p", "normal", "lift")
 
 BACKGROUND = ("#f3efe6", "#dcd6ca")  # bottom, top
+#: Colours of a quantity >= 0 (matplotlib's perceptually uniform "cividis" light to dark would hide the body's
+#: shading at 0; "YlOrRd" runs from pale yellow at 0 to dark red at the top of the scale).
+SEQUENTIAL_CMAP = "YlOrRd"
 GROUND = "#c9c2b4"
 INK = "#2b2a27"
 #: Faces above which a decimated copy is drawn (the field is carried over by nearest vertex).
@@ -54,6 +57,7 @@ class ColourField:
     taps: np.ndarray | None
     limit: float
     label: str
+    sequential: bool = False  # a quantity >= 0 (from 0 to limit, one-sided colours) instead of +/- limit
 
 
 def colour_field(body, face_values, taps, kind, *, q=None, p_ref=0.0, quantity="cp") -> ColourField:
@@ -227,12 +231,15 @@ class BodyView:
         nrm /= np.maximum(np.linalg.norm(nrm, axis=1), 1e-12)[:, None]
         mesh, self.decimated = body_polydata(body, {"value": point_vals, "Normals": nrm}, max_faces=self.max_faces)
         mesh.point_data.active_normals_name = "Normals"
-        cmap = _cmap()
         lim = self.field.limit
+        if self.field.sequential:
+            cmap, clim, fmt = SEQUENTIAL_CMAP, (0.0, lim), "%.2g"
+        else:
+            cmap, clim, fmt = _cmap(), (-lim, lim), ("%+.2f" if lim < 10 else "%+.0f")
         bar = dict(title=self.field.label, vertical=False, position_x=0.22, position_y=0.035, width=0.56,
-                   height=0.07, n_labels=5, fmt="%+.2f" if lim < 10 else "%+.0f", color=INK,
+                   height=0.07, n_labels=5, fmt=fmt, color=INK,
                    title_font_size=20, label_font_size=17, font_family="courier", shadow=False)
-        pl.add_mesh(mesh, scalars="value", cmap=cmap, clim=(-lim, lim), smooth_shading=False, interpolation="gouraud",
+        pl.add_mesh(mesh, scalars="value", cmap=cmap, clim=clim, smooth_shading=False, interpolation="gouraud",
                     ambient=0.28, diffuse=0.72, specular=0.12, specular_power=18, scalar_bar_args=bar,
                     show_scalar_bar=True, name="body")
         lo, hi = body.vertices.min(axis=0), body.vertices.max(axis=0)
@@ -254,11 +261,14 @@ class BodyView:
             r = 0.0065 * L
             pts = np.asarray(self.taps.points) + r * 0.6 * body.face_normals[self.taps.faces]
             beads = pv.PolyData(pts)
-            beads.point_data["reading"] = self.field.taps
-            glyphs = beads.glyph(geom=pv.Sphere(radius=r, theta_resolution=14, phi_resolution=10),
-                                 scale=False, orient=False)
-            pl.add_mesh(glyphs, scalars="reading", cmap=cmap, clim=(-lim, lim), show_scalar_bar=False,
-                        ambient=0.35, diffuse=0.65, silhouette=dict(color=INK, line_width=2.0), name="taps")
+            glyph_kw = dict(geom=pv.Sphere(radius=r, theta_resolution=14, phi_resolution=10), scale=False, orient=False)
+            look = dict(ambient=0.35, diffuse=0.65, silhouette=dict(color=INK, line_width=2.0), name="taps")
+            if self.field.taps is None:  # a quantity the taps do not read: plain white beads mark where they are
+                pl.add_mesh(beads.glyph(**glyph_kw), color="white", **look)
+            else:
+                beads.point_data["reading"] = self.field.taps
+                pl.add_mesh(beads.glyph(**glyph_kw), scalars="reading", cmap=cmap, clim=clim, show_scalar_bar=False,
+                            **look)
             if self.tap_names:
                 pl.add_point_labels(pts, list(self.taps.names), font_size=11, text_color=INK,
                                     shape_color="#fbf8f1", shape_opacity=0.75, point_size=1,
@@ -406,4 +416,41 @@ def render_fields(body, fields: dict, taps=None, *, view="three-quarter", size=(
             out[n] = v.screenshot(view)
         finally:
             v.close()
+    return out
+
+
+def render_scalar(body, values, taps=None, *, label, views=("three-quarter", "top", "bottom", "side"),
+                  size=(900, 540), progress=None, **kw) -> dict:
+    """Render a quantity >= 0 on the body (e.g. where unknown pressure matters most) from several views.
+
+    Parameters
+    ----------
+    body : Body
+    values : (m,) float
+        Per face, >= 0; the colour scale runs from 0 to its 99.5th percentile.
+    taps : ProjectedTaps, optional
+        Drawn as white beads.
+    label : str
+        Colour bar title.
+    views : sequence of str
+    size : (int, int)
+        Each image's size, pixels.
+
+    Returns
+    -------
+    dict
+        name -> (h, w, 3) uint8 image.
+    """
+    kw.setdefault("off_screen", True)
+    vals = np.asarray(values, float)
+    view = BodyView(body, np.zeros(body.n_faces), taps, kind="cp", size=size, **kw)
+    lim = float(np.percentile(vals, 99.5)) if vals.size else 1.0
+    view.field = ColourField("scalar", vals, None, lim if lim > 0 else 1.0, label, sequential=True)
+    out = {}
+    try:
+        seq = list(views)
+        for name in (progress.track(seq, len(seq), "rendering the map") if progress else seq):
+            out[name] = view.screenshot(name)
+    finally:
+        view.close()
     return out

@@ -397,3 +397,45 @@ def test_normal_trend_matches_scikit_learn_kernels_on_a_line():
     var = np.diag(K) - np.einsum("ij,ji->i", K[:, idx], np.linalg.solve(S, K[idx, :]))
     np.testing.assert_allclose(gp.node_mean(), mu, atol=1e-8)
     np.testing.assert_allclose(gp.node_var(), var, atol=1e-8)
+
+
+@pytest.mark.slow
+def test_cli_uncertainty_report_map_and_spread(cli, samples_dir, tmp_path):
+    # The reporting: bands in the report beside the method spread, and a map of where unknown pressure
+    # matters most (sd x face weight, common practice of sensitivity maps); bad figure names are one-line errors.
+    import json
+
+    from PIL import Image
+
+    mesh, taps = samples_dir / "coupe.stl", samples_dir / "coupe_taps.csv"
+    base = [mesh, taps, "--length-unit", "mm", "--up", "+y", "--forward=-z", "--front-axle", "-250",
+            "--rear-axle", "2350", "--speed", "100 km/h", "--quiet", "--patches", "600"]
+    r = cli("uncertainty", *base, "--map", tmp_path / "m.png", "--map-figure", "CQ")
+    assert r.returncode == 2 and r.stderr.startswith("meshpress: error: --map-figure 'CQ'")
+    assert not (tmp_path / "m.png").exists()
+    r = cli("uncertainty", *base, "--spread", "rbf")
+    assert r.returncode == 2 and "--spread" in r.stderr and "Traceback" not in r.stderr
+    out = tmp_path / "u.json"
+    r = cli("uncertainty", *base, "--spread", "rbf,nearest", "--map", tmp_path / "m.png", "--map-figure", "CLR",
+            "--report", tmp_path / "rep", "--json", out)
+    assert r.returncode == 0, r.stderr
+    img = np.asarray(Image.open(tmp_path / "m.png").convert("RGB")).astype(float)
+    assert img.shape[0] > 500 and img.shape[1] > 800 and img.std() > 15
+    page = (tmp_path / "rep" / "report.html").read_text()
+    assert "How sure is the number" in page and "method spread" in page
+    assert "Where unknown pressure matters most for CLR" in page
+    spread = json.loads(out.read_text())["uncertainty"]["method_spread"]
+    assert spread["_methods"] == ["rbf", "nearest"] and spread["CL"] >= 0
+    assert (tmp_path / "rep" / "images" / "map_CLR.png").exists()
+
+
+def test_importance_is_largest_where_no_tap_is(sphere):
+    # Taps on the front half only: for the drag-like figure the unseen rear must carry more importance per area
+    # than the tapped front (the posterior sd grows away from data; Rasmussen and Williams 2006, sec. 2.2).
+    from meshpress.bandreport import importance_per_area
+
+    taps = make_taps(sphere, fib_points(60, hemisphere="front"))
+    res = compute_uncertainty(sphere, taps, ref_area=np.pi)
+    imp = importance_per_area(res, sphere, "CD")
+    x = sphere.centroids[:, 0]
+    assert imp[x > 0.3].mean() > 3 * imp[x < -0.3].mean()

@@ -13,6 +13,8 @@ from .options import (add_body_options, add_field_options, add_flow_options, add
                       add_gp_orientation_option, load_inputs, method_settings, speed_mps)
 
 U_COLUMNS = ("u", "p_u", "cp_u", "sem", "p_sem", "cp_sem")
+#: Field methods whose spread ``--spread`` shows by default (harmonic is a cross-check only, strip a baseline).
+SPREAD_METHODS = ("rbf", "geodesic", "biharmonic", "nearest", "kriging")
 
 
 def add_parser(sub):
@@ -56,6 +58,17 @@ def add_parser(sub):
                    help="use only the taps both files have (default: a tap in one file only is an error)")
     p.add_argument("--json", metavar="OUT", help="write the result (loads + 'uncertainty' object, and 'change' "
                                                  "with --baseline) as JSON")
+    r = p.add_argument_group("pictures and report")
+    r.add_argument("--spread", nargs="?", const=",".join(SPREAD_METHODS), default=None, metavar="LIST",
+                   help="also run these field methods on the same taps (as 'meshpress compare'; default "
+                        + ",".join(SPREAD_METHODS) + ") and show each figure's spread between them beside its band")
+    r.add_argument("--map", metavar="PNG", help="write a picture of where unknown pressure matters most for "
+                                                "--map-figure (four views)")
+    r.add_argument("--map-figure", default="CL", metavar="NAME",
+                   help="figure of the map and of the report's map: CL, CD, CS, CPM, CLF, CLR or a force name "
+                        "(default CL)")
+    r.add_argument("--report", metavar="DIR", help="write the loads report (as 'loads --report') with the bands, "
+                                                   "the method spread and the map to DIR")
     p.add_argument("--quiet", action="store_true", help="no progress display")
     p.set_defaults(run=run)
     return p
@@ -132,6 +145,7 @@ def _subset(taps, idx):
 
 def run(args) -> int:
     import json
+    from pathlib import Path
 
     from ..analysis import compute_loads, resolve_q
     from ..coefficients import ISA_RHO
@@ -150,8 +164,12 @@ def run(args) -> int:
     if not 0.0 <= args.error_correlation <= 1.0:
         raise InputError(f"--error-correlation must be between 0 and 1, got {args.error_correlation:g}")
     inputs = (args.mesh, args.taps) + ((args.baseline,) if args.baseline else ())
-    if args.json:
-        check_not_input(args.json, inputs)
+    for out in (args.json, args.map):
+        if out:
+            check_not_input(out, inputs)
+    if args.report and Path(args.report).exists() and not Path(args.report).is_dir():
+        raise InputError(f"--report {args.report!r} is a file; give a folder to write the report into")
+    spread_methods = _spread_methods(args.spread)
     body, taps = load_inputs(args, progress)
     base_taps, dropped = None, []
     if args.baseline:
@@ -204,21 +222,72 @@ def run(args) -> int:
         if (tap_u is None) != (base_u is None):
             change.notes.append("only one of the two tap files has a u column: the other's readings are taken "
                                 "as exact")
+    if args.map or args.report:
+        if args.map_figure not in unc.names:
+            raise InputError(f"--map-figure {args.map_figure!r} is not one of: {', '.join(unc.names)}")
+    spread = None
+    if spread_methods:
+        from ..compare import compare_methods
+
+        with progress.step("field methods for the spread"):
+            c = compare_methods(body, taps, spread_methods, settings=lambda name: method_settings(args, name), q=q,
+                                ref_area=loads.ref_area_m2, p_ref=args.p_ref, progress=progress)
+        spread = {k: v for k, v in c["spread"].items() if k in unc.names}
+        spread["_methods"] = list(spread_methods)
     print(format_result(loads))
     print()
     print(format_bands(unc, field.describe()))
+    if spread:
+        print("  method spread (max - min over " + ", ".join(spread_methods) + "): "
+              + ", ".join(f"{k} {spread[k]:.3g}" for k in unc.names if spread.get(k) is not None))
     if change is not None:
         print()
         print(format_change(change))
     if args.json:
         d = loads.to_dict()
         d["uncertainty"] = unc.to_dict()
+        if spread:
+            d["uncertainty"]["method_spread"] = spread
         if change is not None:
             d["baseline_uncertainty"] = change.base.to_dict()
             d["change"] = change.to_dict()
         write_atomic(args.json, json.dumps(_clean(d), indent=2) + "\n", protect=inputs)
         print(f"\n  wrote {args.json}")
+    if args.map or args.report:
+        from ..bandreport import bands_section_html, importance_png
+
+        with progress.step("rendering the map"):
+            png = importance_png(unc, body, taps, args.map_figure)
+        if args.map:
+            from ..results import replace_into
+
+            replace_into(args.map, lambda tmp: Path(tmp).write_bytes(png), protect=inputs)
+            print(f"  wrote {args.map}")
+        if args.report:
+            from ..analysis import LoadRun
+            from ..report import write_report
+
+            html = bands_section_html(unc, field_name=field.describe(), spread=spread, map_png=png,
+                                      map_figure=args.map_figure)
+            files = write_report(LoadRun(body, taps, field, loads), args.report, protect=inputs, progress=progress,
+                                 sections=[("How sure is the number", html)],
+                                 extra_images={f"map_{args.map_figure}": png})
+            print(f"  wrote {files.html}")
     return 0
+
+
+def _spread_methods(text):
+    """Method names of ``--spread`` (checked before any work), or None."""
+    if text is None:
+        return None
+    from ..errors import InputError
+    from ..fields import METHODS
+
+    names = [m.strip() for m in text.split(",") if m.strip()]
+    bad = [m for m in names if m not in METHODS]
+    if bad or len(names) < 2:
+        raise InputError(f"--spread: give two or more of {', '.join(METHODS)} (got {text!r})")
+    return names
 
 
 def _face_values(loads):
