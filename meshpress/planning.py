@@ -149,7 +149,7 @@ def greedy_plan(cov, a, n_add, *, candidates, blocked_from=(), distance=None, mi
 
 def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrier=None, n_patches=2500,
               q=None, ref_area=None, boxes=(), excluded_faces=None, min_spacing=0.05, length_scale=None,
-              kernel="exponential", regions=None, orientation: bool = False, progress=None) -> Plan:
+              kernel="exponential", regions=None, orientation: bool = True, progress=None) -> Plan:
     """Propose ``n_add`` tap positions that cut the chosen figures' uncertainty most.
 
     Parameters
@@ -177,8 +177,8 @@ def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrie
     regions : str or (m,) array, optional
         Regions modelled as independent fields (:func:`~meshpress.uncertainty.compute_uncertainty`).
     orientation : bool
-        The normals' factor in the model's correlation (needs three taps to
-        fit it; default off, docs/uncertainty.md).
+        The normals' factor in the model's correlation, as in the bands
+        (needs three taps to fit it; docs/uncertainty.md measures both).
 
     Returns
     -------

@@ -8,8 +8,8 @@ CL, CLF, CLR is compared with the truth.  Reported: mean absolute actual error
 over the cases (and the mean predicted u), for 40 taps, 40 + planned, 40 +
 random.  The RBF field's errors are given for information.
 
-Run: ``python scripts/bench_planning.py [n_cases] [planner_orientation] [n_random]`` (default 12, off, 1;
-"on" gives the planner's model the orientation factor too; ``n_random`` draws of the 20 random taps per case,
+Run: ``python scripts/bench_planning.py [n_cases] [planner_orientation] [n_random]`` (default 12, on, 1;
+"off" plans without the orientation factor; ``n_random`` draws of the 20 random taps per case,
 whose errors are averaged, so the random side of the comparison is less noisy).  The estimate is ``compute_uncertainty``'s default (orientation
 factor on).
 """
@@ -36,7 +36,7 @@ FIGS = ("CL", "CLF", "CLR")
 
 def main():
     n_cases = int(sys.argv[1]) if len(sys.argv) > 1 else 12
-    orient = (sys.argv[2] if len(sys.argv) > 2 else "off") == "on"
+    orient = (sys.argv[2] if len(sys.argv) > 2 else "on") == "on"
     n_random = int(sys.argv[3]) if len(sys.argv) > 3 else 1
     rng = np.random.default_rng(11)
     body, cp, _ = tc.car()
