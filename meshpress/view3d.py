@@ -368,14 +368,7 @@ def render_views(body, face_values, taps=None, *, views=tuple(VIEWS), progress=N
     kw.setdefault("off_screen", True)
     view = BodyView(body, face_values, taps, **kw)
     t0 = time.perf_counter()
-    out = {}
-    try:
-        seq = list(views)
-        it = progress.track(seq, len(seq), "rendering 3D views") if progress else seq
-        for name in it:
-            out[name] = view.screenshot(name)
-    finally:
-        view.close()
+    out = _screenshots(view, views, progress, "rendering 3D views")
     out["_seconds"] = time.perf_counter() - t0
     out["_decimated"] = view.decimated
     return out
@@ -446,10 +439,15 @@ def render_scalar(body, values, taps=None, *, label, views=("three-quarter", "to
     view = BodyView(body, np.zeros(body.n_faces), taps, kind="cp", size=size, **kw)
     lim = float(np.percentile(vals, 99.5)) if vals.size else 1.0
     view.field = ColourField("scalar", vals, None, lim if lim > 0 else 1.0, label, sequential=True)
+    return _screenshots(view, views, progress, "rendering the map")
+
+
+def _screenshots(view, views, progress, what) -> dict:
+    """name -> image of each of ``views`` from one BodyView, which is closed afterwards."""
     out = {}
     try:
         seq = list(views)
-        for name in (progress.track(seq, len(seq), "rendering the map") if progress else seq):
+        for name in (progress.track(seq, len(seq), what) if progress else seq):
             out[name] = view.screenshot(name)
     finally:
         view.close()

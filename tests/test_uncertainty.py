@@ -309,10 +309,8 @@ def test_regions_in_a_spectral_kernel_match_the_dense_formulas(sphere):
                                rtol=1e-6)
 
 
-def test_regions_stop_the_band_leaking_between_plates():
-    # Two parallel faces 20 mm apart, Cp = -1 - 0.5 x on top and +1 underneath: net lift per q and m2 = 2 (F = -p n dA
-    # over flat faces, closed form; x symmetric about 0).  With the faces as regions the estimate is within its band of 2 and close
-    # to it; without, the model mixes the two faces round the 20 mm edge.
+def plates_with_taps():
+    """A closed plate 1 m x 1 m x 20 mm and 16 taps on each face: Cp = -1 - 0.5 x on top, +1 underneath."""
     import trimesh
 
     m = trimesh.creation.box(extents=(1.0, 1.0, 0.02))
@@ -321,7 +319,14 @@ def test_regions_stop_the_band_leaking_between_plates():
     gx = np.linspace(-0.4, 0.4, 4)
     top = np.array([(x, y, 0.01) for x in gx for y in gx])
     bot = top * [1, 1, -1] + [0.06, 0.06, 0]
-    taps = make_taps(body, np.vstack([top, bot]), np.r_[-1.0 - 0.5 * top[:, 0], np.full(16, 1.0)])
+    return body, make_taps(body, np.vstack([top, bot]), np.r_[-1.0 - 0.5 * top[:, 0], np.full(16, 1.0)])
+
+
+def test_regions_stop_the_band_leaking_between_plates():
+    # Two parallel faces 20 mm apart, Cp = -1 - 0.5 x on top and +1 underneath: net lift per q and m2 = 2 (F = -p n dA
+    # over flat faces, closed form; x symmetric about 0).  With the faces as regions the estimate is within its band
+    # of 2 and close to it; without, the model mixes the two faces round the 20 mm edge.
+    body, taps = plates_with_taps()
     split = compute_uncertainty(body, taps, ref_area=1.0, regions="normal", n_patches=800, orientation=False).band("CL")
     whole = compute_uncertainty(body, taps, ref_area=1.0, n_patches=800, orientation=False).band("CL")
     assert split.value == pytest.approx(2.0, rel=0.02)
@@ -357,15 +362,7 @@ def test_orientation_factor_matches_scikit_learn_kernels_on_a_line():
 def test_orientation_keeps_the_two_faces_of_a_plate_apart():
     # The plates of the regions test without any regions: the orientation factor alone must bring the estimate
     # of the closed-form net lift (2 per q and m2) closer than the plain model, and hold it inside its band.
-    import trimesh
-
-    m = trimesh.creation.box(extents=(1.0, 1.0, 0.02))
-    v, f = trimesh.remesh.subdivide_to_size(m.vertices, m.faces, max_edge=0.04)
-    body = Body(v, f, axles=Axles(-0.25, 0.25))
-    gx = np.linspace(-0.4, 0.4, 4)
-    top = np.array([(x, y, 0.01) for x in gx for y in gx])
-    bot = top * [1, 1, -1] + [0.06, 0.06, 0]
-    taps = make_taps(body, np.vstack([top, bot]), np.r_[-1.0 - 0.5 * top[:, 0], np.full(16, 1.0)])
+    body, taps = plates_with_taps()
     car = Carrier(body, 800)
     plain = compute_uncertainty(body, taps, ref_area=1.0, carrier=car, orientation=False).band("CL")
     turned = compute_uncertainty(body, taps, ref_area=1.0, carrier=car, orientation=True)
