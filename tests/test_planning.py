@@ -22,19 +22,24 @@ def sphere():
 
 
 @pytest.mark.slow
-def test_variance_shrinks_when_taps_are_added_at_the_planned_points(sphere):
+@pytest.mark.parametrize("orientation", [False, True])
+def test_variance_shrinks_when_taps_are_added_at_the_planned_points(sphere, orientation):
     taps = make_taps(sphere, fib_points(24, "front"))
-    plan = plan_taps(sphere, taps, figures=("CL", "CD"), n_add=8, ref_area=np.pi, min_spacing=0.1, kernel="auto")
+    plan = plan_taps(sphere, taps, figures=("CL", "CD"), n_add=8, ref_area=np.pi, min_spacing=0.1, kernel="auto",
+                     orientation=orientation)
     assert len(plan.nodes) == 8
     assert np.all(plan.u_after < plan.u_before)
     # Refit the same model (fixed hyperparameters) with the planned taps read: the kriging variance of each
     # figure is what the planner expected (posterior variance does not depend on the readings).
-    spec = plan.carrier.spectrum()
-    gp0 = SurfaceGP(plan.carrier.distance, kernel="auto", spectrum=spec).fit(plan.carrier.points_matrix(taps.points),
-                                                                          taps.values)
+    car = plan.carrier
+    spec = car.spectrum()
+    gp0 = SurfaceGP.on_carrier(car, kernel="auto", orientation=orientation).fit(car.points_matrix(taps.points),
+                                                                             taps.values)
     both = make_taps(sphere, np.vstack([taps.points, plan.points]))
-    gp1 = SurfaceGP(plan.carrier.distance, kernel=gp0.kernel_, spectrum=spec, length_scale=gp0.length_scale_,
-                    variance=gp0.variance_, nugget=gp0.nugget_, mean_variance=gp0.mean_variance_)
+    gp1 = SurfaceGP(car.distance, kernel=gp0.kernel_, spectrum=spec, length_scale=gp0.length_scale_,
+                    variance=gp0.variance_, nugget=gp0.nugget_, mean_variance=gp0.mean_variance_,
+                    normals=car.normals if orientation else None, orientation=orientation,
+                    normal_scale=gp0.normal_scale_ if orientation else None)
     gp1.fit(plan.carrier.points_matrix(both.points), both.values)
     _, var1, _ = gp1.figures(plan.figure_weights)
     _, var0, _ = gp0.figures(plan.figure_weights)
