@@ -161,3 +161,13 @@ def test_compare_single_method_option(tmp_path, sample):
     assert both.returncode == 2 and "not both" in both.stderr and "Traceback" not in both.stderr
     bad = run_cli("compare", *common, "--method", "magic")
     assert bad.returncode == 2 and "--method: 'magic'" in bad.stderr
+
+
+def test_geodesic_trend_option(tmp_path, sample):
+    # `--trend normal` reaches the geodesic field (its description names the trend); kriging refuses `auto`.
+    common = [*sample, *SAMPLE, "--q", "400", "--quiet", "--method"]
+    r = run_cli("loads", *common, "geodesic", "--trend", "normal")
+    assert r.returncode == 0, r.stderr
+    assert "mean linear in the normal" in r.stdout
+    bad = run_cli("loads", *common, "kriging", "--trend", "auto")
+    assert bad.returncode == 2 and "--trend auto" in bad.stderr and "Traceback" not in bad.stderr

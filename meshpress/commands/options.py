@@ -74,6 +74,9 @@ def add_field_options(p, method_help=None):
     g.add_argument("--length", type=float, metavar="L",
                    help="geodesic kernel length scale, m (default: chosen by leave-one-out error)")
     g.add_argument("--nugget", type=float, default=1e-6, help="geodesic kernel ridge, relative (default 1e-6)")
+    g.add_argument("--trend", default=None, choices=("constant", "normal", "auto"),
+                   help="mean of the geodesic and kriging fields: constant (default), linear in the surface normal, "
+                        "or (geodesic) chosen by leave-one-out; docs/accuracy.md measures both")
     g.add_argument("--work-faces", type=int, default=None, metavar="N",
                    help="surface methods solve on a copy simplified to N faces (default 80000)")
     g.add_argument("--band", type=float, default=0.05, metavar="W",
@@ -116,13 +119,16 @@ def method_settings(args, method=None) -> dict:
     if method == "rbf":
         s = {"kernel": args.kernel or "thin_plate_spline", "smoothing": args.smoothing, **common}
     elif method == "geodesic":
-        s = {"kernel": args.kernel or "matern52", "length": args.length, "nugget": args.nugget, **work, **common}
+        s = {"kernel": args.kernel or "matern52", "length": args.length, "nugget": args.nugget,
+             "trend": args.trend or "constant", **work, **common}
     elif method in ("biharmonic", "harmonic", "nearest"):
         s = {**work, **common}
     elif method == "strip":
         s = {"band": args.band, **common}
     elif method == "kriging":
-        s = {"kernel": args.kernel or "exponential", **common}
+        if args.trend == "auto":
+            raise InputError("--trend auto is for the geodesic method; kriging takes constant or normal")
+        s = {"kernel": args.kernel or "exponential", "trend": "normal" if args.trend == "normal" else None, **common}
     else:
         s = {}
     if args.regions is not None:
