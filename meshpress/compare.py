@@ -32,8 +32,8 @@ from .results import CAUTION
 CROSS_CHECK_ONLY = ("harmonic",)
 
 #: Figures compared between methods (LoadResult properties).
-LOAD_FIGURES = ("CL", "CD", "CPM", "CLF", "CLR", "front_share", "lift_N", "drag_N", "pitch_moment_Nm",
-                "front_lift_N", "rear_lift_N")
+LOAD_FIGURES = ("CL", "CD", "CS", "CPM", "CLF", "CLR", "front_share", "lift_N", "drag_N", "side_N",
+                "pitch_moment_Nm", "front_lift_N", "rear_lift_N")
 
 
 def _num(v):
