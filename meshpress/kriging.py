@@ -33,10 +33,11 @@ also absorbs detail finer than a patch).
 
 Distances along a curved surface do not make every distance kernel positive definite
 (Feragen, Lauze, Hauberg, CVPR 2015; on the sphere Matérn is safe only for
-nu <= 1/2, Gneiting, Bernoulli 19, 2013).  The carrier covariance is therefore
-checked by its eigenvalues and negative ones are clipped to zero (the nearest
-positive semi-definite matrix in the Frobenius norm, Higham 1988); the size of
-the clipped part is recorded in ``clipped_``.
+nu <= 1/2, Gneiting, Bernoulli 19, 2013).  A distance kernel's correlation
+matrix on the carrier is therefore tried by a Cholesky factorisation and, if
+that fails, shifted by the smallest power of ten times the identity that lets
+it through (a bound on its most negative eigenvalue); the shift is recorded in
+``clipped_``.
 
 Fit.  ``s``, ``l`` and the nugget (at most NUGGET_MAX of ``s^2``) maximise the marginal likelihood of the taps
 (Rasmussen and Williams eq. 2.30), by L-BFGS-B on their logarithms from a few
@@ -286,7 +287,7 @@ class SurfaceGP:
             # that other jobs share, the threads' hand-offs cost more than the work (measured: 83 s against 17 s
             # for the 1M-face benchmark at load 3.4), so they run on one thread.
             with threadpool_limits(limits=1, user_api="blas"):
-                p, nll = self._fit_kernel(name, T, y, nv, scale, dmax, length_bounds)
+                p, nll = self._fit_kernel(name, T, y, scale, dmax, length_bounds)
             self.candidates_[name] = nll
             if fallback is None or (np.isfinite(nll) and not nll >= fallback[2]):
                 fallback = (name, p, nll)
@@ -326,7 +327,7 @@ class SurfaceGP:
         def corr(l):
             r = DJ / l
             if name == "exponential":
-                k, dk = np.exp(-r), None
+                k = np.exp(-r)
                 dk = k * r  # d/dlog l of exp(-d/l)
             else:
                 e = np.exp(-np.sqrt(3.0) * r)
@@ -335,7 +336,7 @@ class SurfaceGP:
             return np.asarray(TJ @ np.asarray(TJ @ k).T), np.asarray(TJ @ np.asarray(TJ @ dk).T)
         return corr
 
-    def _fit_kernel(self, name, T, y, nv, scale, dmax, length_bounds):
+    def _fit_kernel(self, name, T, y, scale, dmax, length_bounds):
         n = len(y)
         corr = self._tap_corr_fn(name, T)
         fixed = {"l": self.length_scale, "s2": self.variance, "nug": self.nugget,
@@ -372,9 +373,7 @@ class SurfaceGP:
                 F = np.exp(-C1 / p["th"] ** 2)
                 R, dR = R * F, dR * F
                 dth = R * (2.0 * C1 / p["th"] ** 2)  # d R / d log theta
-            S = self.mean_variance_ * Btt + p["s2"] * R + np.diag(nv + p["nug"])
-            if p["tn"]:
-                S = S + p["tn"] * NN
+            S = self._tap_cov(p["s2"] * R, p["nug"], p["tn"])
             try:
                 c, low = sla.cho_factor(S, lower=True, check_finite=False)
             except (np.linalg.LinAlgError, ValueError):
@@ -436,21 +435,36 @@ class SurfaceGP:
     def log_marginal_likelihood(self, length_scale, variance, nugget) -> float:
         """Log marginal likelihood of the fitted taps at the given hyperparameters (fitted kernel and theta)."""
         R = self._tap_corr_fn(self.kernel_, self.T_)(length_scale)[0] * self._tap_mask() * self._orient(True, True)
-        S = self.mean_variance_ * self._tap_mask() + variance * R + np.diag(self.noise_var_ + nugget)
-        if self.trend_variance_:
-            S = S + self.trend_variance_ * (self.TN_ @ self.TN_.T)
+        S = self._tap_cov(variance * R, nugget, self.trend_variance_)
         c = sla.cho_factor(S, lower=True)
         a = sla.cho_solve(c, self.y_)
         return float(-0.5 * self.y_ @ a - np.log(np.diag(c[0])).sum() - 0.5 * len(self.y_) * np.log(2 * np.pi))
 
+    def _tap_cov(self, s_r, nug, tn):
+        """(n, n) float: the taps' covariance ``S``, the one place it is assembled (fit, likelihood, posterior).
+
+        ``s_r`` is the field's part ``s^2 R`` between the taps, already with the
+        region mask and the orientation factor; added here are the constant
+        mean (one per region), the stated noise with the nugget ``nug`` and the
+        normal trend of variance ``tn``.
+        """
+        S = self.mean_variance_ * self._tap_mask() + s_r + np.diag(self.noise_var_ + nug)
+        if tn:
+            S = S + tn * (self.TN_ @ self.TN_.T)
+        return S
+
+    @property
+    def _orienting(self) -> bool:
+        """Whether the fitted model holds the orientation factor (on, with a finite theta)."""
+        return self.orientation and np.isfinite(getattr(self, "normal_scale_", np.inf))
+
     def _orient(self, rows_taps: bool, cols_taps: bool):
         """Orientation factor between taps and/or nodes at the fitted theta, or 1.0 without it."""
-        th = getattr(self, "normal_scale_", np.inf)
-        if not self.orientation or not np.isfinite(th):
+        if not self._orienting:
             return 1.0
         u = self.tap_normals_ if rows_taps else self.normals
         v = self.tap_normals_ if cols_taps else self.normals
-        return np.exp(-(1.0 - u @ v.T) / th**2)
+        return np.exp(-(1.0 - u @ v.T) / self.normal_scale_**2)
 
     def _condition(self):
         """Prior covariance pieces at the fitted values, and the factorised tap covariance.
@@ -490,10 +504,9 @@ class SurfaceGP:
         # Rows of T sum to 1, so T (tau^2 1 1^T) = tau^2 1 1^T; with regions each tap reads one region's nodes
         # only, so T (A o B) = (T A) o B_tap.
         TK = (tau2 + TR * self._orient(True, False)) * self._node_mask()
-        S = (tau2 + TRT * self._orient(True, True)) * self._tap_mask() + np.diag(self.noise_var_ + self.nugget_)
+        S = self._tap_cov(TRT * self._orient(True, True) * self._tap_mask(), self.nugget_, self.trend_variance_)
         if self.trend_variance_:
             TK = TK + self.trend_variance_ * (self.TN_ @ self.normals.T)
-            S = S + self.trend_variance_ * (self.TN_ @ self.TN_.T)
         self.TK_ = TK
         # Round-off can break the factorisation when the taps' covariance is dominated by the constant mean
         # (e.g. readings that are all equal): a jitter growing from 1e-12 of the mean diagonal restores it.
@@ -513,12 +526,12 @@ class SurfaceGP:
     def _tap_mask(self):
         """(n, n) float same-region indicator among taps, or 1.0 without regions."""
         g = self.tap_groups_
-        return 1.0 if g is None else (g[:, None] == g[None, :]) * 1.0
+        return 1.0 if g is None else same_region(g, g)
 
     def _node_mask(self):
         """(n, n_c) float same-region indicator from taps to nodes, or 1.0 without regions."""
         g = self.tap_groups_
-        return 1.0 if g is None else (g[:, None] == self.groups[None, :]) * 1.0
+        return 1.0 if g is None else same_region(g, self.groups)
 
     # ------------------------------------------------------- prior pieces
     @property
@@ -529,14 +542,14 @@ class SurfaceGP:
             R = self._R if self._R is not None else (self._phi * self._g) @ self._phi.T
             K = self.mean_variance_ + R * self._orient(False, False)
             if self.groups is not None:
-                K *= self.groups[:, None] == self.groups[None, :]
+                K *= same_region(self.groups, self.groups)
             if self.trend_variance_:
                 K += self.trend_variance_ * (self.normals @ self.normals.T)
             self._K = K
         return self._K
 
     def _K_dot(self, a):
-        if self._K is not None or self._R is not None or not np.isscalar(self._orient(False, False)):
+        if self._K is not None or self._R is not None or self._orienting:
             return self.K_ @ a
         if self.groups is None:
             out = self.mean_variance_ * a.sum(axis=0, keepdims=True) + self._phi @ (self._g[:, None] * (self._phi.T @ a))
@@ -609,6 +622,12 @@ class SurfaceGP:
             regions = f", orientation scale {self.normal_scale_:.2g}" + regions
         return (f"kriging ({self.kernel_} along the surface, length {self.length_scale_:.3g} m, "
                 f"sd {np.sqrt(self.variance_):.3g}, nugget sd {np.sqrt(self.nugget_):.3g}{trend}{regions})")
+
+
+def same_region(a, b) -> np.ndarray:
+    """(len(a), len(b)) float: 1 where region labels ``a`` (p,) and ``b`` (q,) agree, else 0."""
+    a, b = np.asarray(a), np.asarray(b)
+    return (a[:, None] == b[None, :]) * 1.0
 
 
 def _snap_to_groups(T, groups):

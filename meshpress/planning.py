@@ -215,13 +215,14 @@ def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrie
         noise = gp.nugget_
         blocked = carrier.nearest_vertex(taps.points)
     else:
+        from .kriging import DISTANCE_KERNELS, same_region
         from .kriging import kernel as kfun
 
         ell = length_scale or 0.2 * float(carrier.distance.max())
-        name = kernel if kernel in ("exponential", "matern32") else "exponential"
+        name = kernel if kernel in DISTANCE_KERNELS else "exponential"
         cov = 1.0 + kfun(carrier.distance / ell, name)  # unit variance, constant-mean prior of 1
         if groups is not None:
-            cov *= groups[:, None] == groups[None, :]
+            cov *= same_region(groups, groups)
         noise = 1e-4
         blocked = carrier.nearest_vertex(taps.points) if n_taps else np.zeros(0, np.int64)
         if n_taps:
