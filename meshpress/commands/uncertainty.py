@@ -174,7 +174,18 @@ def run(args) -> int:
     base_taps, dropped = None, []
     if args.baseline:
         base_taps, taps, dropped = _baseline_taps(args, body, taps, progress)
-    field = make_field(args.method, **method_settings(args))
+    from ..patches import Carrier
+
+    # One carrier (covariance patches) for every kriging model here: the bands, the baseline's, the change's, and
+    # the kriging field when it is the method or one of --spread.
+    with progress.step("carrier patches"):
+        carrier = Carrier(body, args.patches, progress=progress)
+
+    def settings(name=None):
+        s = method_settings(args, name)
+        return {**s, "carrier": carrier} if (name or args.method) == "kriging" else s
+
+    field = make_field(args.method, **settings())
     loads = compute_loads(body, taps, field, q=q, ref_area=args.ref_area, p_ref=args.p_ref, progress=progress)
     loads.inputs["taps"] = str(args.taps)
     tap_u = read_tap_u(args.taps, taps.names, taps.kind, args.pressure_unit)
@@ -183,21 +194,15 @@ def run(args) -> int:
                             u_rho=args.u_air_density))
     sensor = _sensor(args, taps.kind)
     meas = Measurement.build(len(taps), tap_u=tap_u, sensor=sensor, u_p_ref=args.u_p_ref, u_q_rel=u_q_rel)
-    carrier = None
-    if args.baseline:
-        from ..patches import Carrier
-
-        with progress.step("carrier patches"):
-            carrier = Carrier(body, args.patches, progress=progress)
+    gp_kw = dict(q=q, ref_area=loads.ref_area_m2, carrier=carrier, kernel=args.kernel_gp, regions=args.regions,
+                 orientation=args.orientation_gp == "on", progress=progress)
     with progress.step("kriging bands"):
-        unc = compute_uncertainty(body, taps, q=q, ref_area=loads.ref_area_m2, meas=meas, field=field,
-                                  n_patches=args.patches, kernel=args.kernel_gp, carrier=carrier, regions=args.regions,
-                                  orientation=args.orientation_gp == "on", progress=progress)
+        unc = compute_uncertainty(body, taps, meas=meas, field=field, **gp_kw)
     change = None
     if args.baseline:
         from ..change import ErrorSources, compute_change
 
-        base_field = make_field(args.method, **method_settings(args))
+        base_field = make_field(args.method, **settings())
         base_loads = compute_loads(body, base_taps, base_field, q=q, ref_area=loads.ref_area_m2, p_ref=args.p_ref,
                                    progress=progress)
         base_u = read_tap_u(args.baseline, base_taps.names, base_taps.kind, args.pressure_unit)
@@ -206,16 +211,11 @@ def run(args) -> int:
         e_base = ErrorSources.build(len(taps), random_u=base_u, systematic_u=sensor, u_p_ref=args.u_p_ref,
                                     u_q_rel=u_q_rel)
         with progress.step("kriging bands of the baseline and of the change"):
-            base_unc = compute_uncertainty(body, base_taps, q=q, ref_area=loads.ref_area_m2,
-                                           meas=e_base.measurement(), field=base_field, carrier=carrier,
-                                           kernel=args.kernel_gp, regions=args.regions,
-                                           orientation=args.orientation_gp == "on", progress=progress)
+            base_unc = compute_uncertainty(body, base_taps, meas=e_base.measurement(), field=base_field, **gp_kw)
             change = compute_change(body, taps, base_taps.values, taps.values, err_base=e_base, err_other=e_other,
-                                    correlation=args.error_correlation, q=q, ref_area=loads.ref_area_m2,
-                                    carrier=carrier, kernel=args.kernel_gp, base_result=base_unc, other_result=unc,
-                                    regions=args.regions, orientation=args.orientation_gp == "on",
-                                    field_change=(_face_values(loads) - _face_values(base_loads)),
-                                    base_label=str(args.baseline), other_label=str(args.taps), progress=progress)
+                                    correlation=args.error_correlation, base_result=base_unc, other_result=unc,
+                                    field_change=(_face_values(loads) - _face_values(base_loads)), **gp_kw,
+                                    base_label=str(args.baseline), other_label=str(args.taps))
         if dropped:
             change.notes.insert(0, f"{len(dropped)} taps in one file only were left out of every figure "
                                    f"(--common-taps): {', '.join(dropped)}")
@@ -230,7 +230,7 @@ def run(args) -> int:
         from ..compare import compare_methods
 
         with progress.step("field methods for the spread"):
-            c = compare_methods(body, taps, spread_methods, settings=lambda name: method_settings(args, name), q=q,
+            c = compare_methods(body, taps, spread_methods, settings=settings, q=q,
                                 ref_area=loads.ref_area_m2, p_ref=args.p_ref, progress=progress)
         spread = {k: v for k, v in c["spread"].items() if k in unc.names}
         spread["_methods"] = list(spread_methods)

@@ -42,18 +42,23 @@ class KrigingField(BoundedMixin, Field):
         Bounding beyond the taps, as for every method (:mod:`meshpress.fields.bounds`).
     far_value : float, optional
         The value far from every tap for ``"decay"``.
+    carrier : Carrier, optional
+        A carrier of the body being fitted, to reuse (``meshpress uncertainty``
+        shares its own); its size then stands in for ``patches``.  Ignored for
+        another body (a region's part, for example).
     """
 
     name = "kriging"
 
     def __init__(self, kernel="exponential", patches=2500, trend=None, orientation=False, extrapolation="clamp",
-                 far_value=None):
+                 far_value=None, carrier=None):
         self.kernel = kernel
         self.patches = patches
         self.trend = trend
         self.orientation = orientation
         self.extrapolation = extrapolation
         self.far_value = far_value
+        self.carrier = carrier
 
     def _fit(self, body, taps, progress):
         from ..errors import InputError
@@ -65,7 +70,9 @@ class KrigingField(BoundedMixin, Field):
         check_extrapolation(self.extrapolation, self.far_value)
         if self.trend not in (None, "normal"):  # before the carrier, which takes seconds
             raise InputError(f"kriging trend must be 'normal' or none, got {self.trend!r}")
-        carrier = Carrier(body, self.patches, progress=progress)
+        carrier = self.carrier
+        if carrier is None or carrier.body is not body:
+            carrier = Carrier(body, self.patches, progress=progress)
         gp = SurfaceGP.on_carrier(carrier, kernel=self.kernel, trend=self.trend, orientation=self.orientation)
         gp.fit(carrier.points_matrix(taps.points), taps.values)
         self.carrier_, self.gp_ = carrier, gp
