@@ -210,11 +210,19 @@ class Carrier:
         """
         if spec is None:
             return None, self.face_matrix
+        # Every model on this carrier (a configuration's, its baseline's, their difference's) asks for the same
+        # regions: a specification string is worked out once.
+        cache = self.__dict__.setdefault("_regions", {})
+        if isinstance(spec, str) and spec in cache:
+            return cache[spec]
         from .regions import face_regions
 
         _, labels = face_regions(self.body, spec)
         groups = self.node_regions(labels)
-        return groups, self.regions_face_matrix(groups, labels)
+        out = groups, self.regions_face_matrix(groups, labels)
+        if isinstance(spec, str):
+            cache[spec] = out
+        return out
 
     def node_regions(self, face_labels) -> np.ndarray:
         """(n_c,) int: region of each carrier vertex from the fine faces' regions (m,) int.
