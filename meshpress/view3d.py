@@ -199,16 +199,21 @@ class BodyView:
         Image size, pixels (width, height).
     off_screen : bool, optional
         Default: off screen when there is no display.
+    colour : ColourField, optional
+        Draw this instead of the quantity of ``face_values`` (e.g. a one-sided
+        map); ``face_values`` then only feed the arrows.
     """
 
     def __init__(self, body, face_values, taps=None, *, kind="p", q=None, p_ref=0.0, quantity="cp",
-                 tap_names=False, arrows=False, size=(1200, 720), off_screen=None, max_faces=MAX_RENDER_FACES):
+                 tap_names=False, arrows=False, size=(1200, 720), off_screen=None, max_faces=MAX_RENDER_FACES,
+                 colour=None):
         self.body = body
         self.taps = taps
         self.size = (int(size[0]), int(size[1]))
         self.off_screen = (not has_display()) if off_screen is None else bool(off_screen)
         self.face_values = np.asarray(face_values, float)
-        self.field = colour_field(body, face_values, taps, kind, q=q, p_ref=p_ref, quantity=quantity)
+        self.field = colour if colour is not None else colour_field(body, face_values, taps, kind, q=q, p_ref=p_ref,
+                                                                     quantity=quantity)
         self.kind, self.q, self.p_ref = kind, q, p_ref
         self.tap_names = tap_names
         self.arrows = arrows
@@ -436,9 +441,9 @@ def render_scalar(body, values, taps=None, *, label, views=("three-quarter", "to
     """
     kw.setdefault("off_screen", True)
     vals = np.asarray(values, float)
-    view = BodyView(body, np.zeros(body.n_faces), taps, kind="cp", size=size, **kw)
     lim = float(np.percentile(vals, 99.5)) if vals.size else 1.0
-    view.field = ColourField("scalar", vals, None, lim if lim > 0 else 1.0, label, sequential=True)
+    colour = ColourField("scalar", vals, None, lim if lim > 0 else 1.0, label, sequential=True)
+    view = BodyView(body, vals, taps, kind="cp", size=size, colour=colour, **kw)
     return _screenshots(view, views, progress, "rendering the map")
 
 
