@@ -410,6 +410,9 @@ def test_cli_uncertainty_report_map_and_spread(cli, samples_dir, tmp_path):
     r = cli("uncertainty", *base, "--map", tmp_path / "m.png", "--map-figure", "CQ")
     assert r.returncode == 2 and r.stderr.startswith("meshpress: error: --map-figure 'CQ'")
     assert not (tmp_path / "m.png").exists()
+    no_axles = [a for a in base if a not in ("--front-axle", "-250", "--rear-axle", "2350")]
+    r = cli("uncertainty", *no_axles, "--map", tmp_path / "m.png", "--map-figure", "CLF")
+    assert r.returncode == 2 and "these inputs give" in r.stderr and "Traceback" not in r.stderr
     r = cli("uncertainty", *base, "--spread", "rbf")
     assert r.returncode == 2 and "--spread" in r.stderr and "Traceback" not in r.stderr
     out = tmp_path / "u.json"

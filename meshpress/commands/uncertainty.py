@@ -154,7 +154,7 @@ def run(args) -> int:
     from ..progress import Progress
     from ..results import _clean, check_not_input, write_atomic
     from ..textreport import format_result
-    from ..uncertainty import Measurement, compute_uncertainty, q_relative_u
+    from ..uncertainty import FIGURES, Measurement, compute_uncertainty, figure_face_weights, q_relative_u
 
     progress = Progress(enabled=False if args.quiet else None)
     speed = speed_mps(args.speed)
@@ -170,7 +170,15 @@ def run(args) -> int:
     if args.report and Path(args.report).exists() and not Path(args.report).is_dir():
         raise InputError(f"--report {args.report!r} is a file; give a folder to write the report into")
     spread_methods = _spread_methods(args.spread)
+    if (args.map or args.report) and args.map_figure not in FIGURES:
+        raise InputError(f"--map-figure {args.map_figure!r} is not one of: {', '.join(FIGURES)}")
     body, taps = load_inputs(args, progress)
+    if args.map or args.report:  # checked before the bands are computed: which figures these inputs give
+        wb = body.axles.wheelbase if body.axles is not None else None
+        names, _ = figure_face_weights(body, kind=taps.kind, q=q, ref_area=1.0, wheelbase=wb)
+        if args.map_figure not in names:
+            raise InputError(f"--map-figure {args.map_figure!r} is not one of the figures these inputs give: "
+                             f"{', '.join(names)}")
     base_taps, dropped = None, []
     if args.baseline:
         base_taps, taps, dropped = _baseline_taps(args, body, taps, progress)
@@ -222,9 +230,6 @@ def run(args) -> int:
         if (tap_u is None) != (base_u is None):
             change.notes.append("only one of the two tap files has a u column: the other's readings are taken "
                                 "as exact")
-    if args.map or args.report:
-        if args.map_figure not in unc.names:
-            raise InputError(f"--map-figure {args.map_figure!r} is not one of: {', '.join(unc.names)}")
     spread = None
     if spread_methods:
         from ..compare import compare_methods
