@@ -210,7 +210,7 @@ def compute_change(body, taps, y_base, y_other, *, err_base: ErrorSources, err_o
                    correlation: float = 1.0, q=None, ref_area, carrier=None, n_patches: int = 2500,
                    kernel: str = "auto", base_result=None, other_result=None, field_change=None,
                    base_label="base", other_label="other", regions=None, orientation: bool = True,
-                   progress=None) -> ChangeResult:
+                   orientation_kernel: str = "matern52", progress=None) -> ChangeResult:
     """Kriging estimate and band of every figure's change ``other - base`` on shared taps.
 
     Parameters
@@ -239,8 +239,8 @@ def compute_change(body, taps, y_base, y_other, *, err_base: ErrorSources, err_o
         Passed to :class:`~meshpress.kriging.SurfaceGP`.
     regions : str or (m,) array, optional
         Independent regions of the model (:func:`~meshpress.uncertainty.compute_uncertainty`).
-    orientation : bool
-        The normals' factor in the model's correlation (as there).
+    orientation, orientation_kernel
+        The normals' factor in the model's correlation and its form (as there).
 
     Returns
     -------
@@ -257,7 +257,7 @@ def compute_change(body, taps, y_base, y_other, *, err_base: ErrorSources, err_o
     if carrier is None:
         carrier = Carrier(body, n_patches, progress=progress)
     kw = dict(q=q, ref_area=ref_area, carrier=carrier, kernel=kernel, regions=regions, orientation=orientation,
-              progress=progress)
+              orientation_kernel=orientation_kernel, progress=progress)
     if base_result is None:
         base_result = compute_uncertainty(body, taps.with_values(y_base), meas=err_base.measurement(), **kw)
     if other_result is None:

@@ -53,7 +53,16 @@ follows orientation (stagnation on forward-facing skin, a wake level on the
 base, suction where the flow turns round an edge), so taps on the roof say
 little about the nose just below it even at a short distance along the
 surface.  The limit ``theta -> 0`` separates up- from down-facing skin as the
-``normal`` regions do; ``theta`` large switches the factor off.  Taps use the
+``normal`` regions do; ``theta`` large switches the factor off.  The factor
+may also be a Matérn-5/2, Matérn-3/2 or exponential function of the chordal
+distance ``|n_i - n_j|`` between the normals (kernels of 3-D space restricted
+to the sphere, so positive definite; Gneiting 2013): less smooth in the
+normal, so a field that turns sharply round a leading edge is not taken for a
+smooth one (the squared exponential's smoothness makes its intervals
+over-confident; Stein, Interpolation of Spatial Data, 1999, ch. 3).
+``orientation_kernel="auto"`` fits :data:`AUTO_ORIENTATION` and keeps the one
+of highest marginal likelihood, as ``kernel="auto"`` does for the surface
+kernel.  Taps use the
 normal ``T n`` of their carrier row (renormalised); the joint covariance of
 taps and nodes is the Schur product of two positive semi-definite matrices.
 
@@ -83,6 +92,46 @@ SPECTRAL_KERNELS = {"lb-matern12": 0.5, "lb-matern32": 1.5, "lb-matern52": 2.5, 
 KERNELS = DISTANCE_KERNELS + tuple(SPECTRAL_KERNELS)
 AUTO_KERNELS = ("exponential",) + tuple(SPECTRAL_KERNELS)  # candidates of kernel="auto"
 NUGGET_MAX = 0.1  # largest fitted nugget, as a fraction of the field variance
+ORIENTATION_KERNELS = ("se", "exponential", "matern32", "matern52")  # forms of the normals' factor (orientation_factor)
+AUTO_ORIENTATION = ("se", "matern52", "matern32")  # candidates of orientation_kernel="auto"
+
+
+def orientation_factor(c1, theta, form="se"):
+    """The normals' factor and its derivative in ``log theta``.
+
+    Parameters
+    ----------
+    c1 : array of float
+        ``1 - n_i . n_j`` (0 to 2) for unit normals; the chordal distance
+        between them is ``r = sqrt(2 c1)``.
+    theta : float
+        Scale (dimensionless).
+    form : {"se", "exponential", "matern32", "matern52"}
+        ``exp(-c1 / theta^2)`` (squared exponential of ``r / (sqrt(2) theta)``),
+        ``exp(-r / theta)``, or the Matérn forms of smoothness 3/2 and 5/2 of
+        ``r / theta`` (Rasmussen and Williams 2006, eq. 4.17).
+        Each is a kernel of points in 3-D space restricted to the unit sphere,
+        so positive definite there (Gneiting, Bernoulli 19, 2013, sec. 4).
+
+    Returns
+    -------
+    F, dF : arrays like ``c1``
+    """
+    if form == "se":
+        F = np.exp(-c1 / theta**2)
+        return F, F * (2.0 * c1 / theta**2)
+    r = np.sqrt(np.maximum(2.0 * c1, 0.0)) / theta
+    if form == "exponential":
+        F = np.exp(-r)
+        return F, F * r
+    if form == "matern32":
+        e = np.exp(-np.sqrt(3.0) * r)
+        return (1.0 + np.sqrt(3.0) * r) * e, 3.0 * r**2 * e
+    if form == "matern52":
+        s5 = np.sqrt(5.0) * r
+        e = np.exp(-s5)
+        return (1.0 + s5 + 5.0 * r**2 / 3.0) * e, (5.0 / 3.0) * r**2 * (1.0 + s5) * e
+    raise InputError(f"orientation kernel {form!r} is not one of: {', '.join(ORIENTATION_KERNELS)}")
 
 
 def kernel(r: np.ndarray, name: str = "matern32") -> np.ndarray:
@@ -157,6 +206,11 @@ class SurfaceGP:
         needs ``normals``.
     normal_scale : float, optional
         Fix ``theta`` (dimensionless) instead of fitting it.
+    orientation_kernel : {"se", "matern52", "matern32", "exponential", "auto"}
+        Form of the normals' factor (:func:`orientation_factor`); ``auto``
+        keeps the best of :data:`AUTO_ORIENTATION` by marginal likelihood.
+        (``compute_uncertainty`` and ``compute_change`` default to
+        ``matern52``; the planner and this class to ``se``.)
     trend : bool, optional
         Use ``normals`` for the trend; default: yes unless ``orientation``.
 
@@ -167,6 +221,11 @@ class SurfaceGP:
     length_scale_, variance_, nugget_, mean_variance_, nll_ : float
     normal_scale_ : float
         ``theta``; ``inf`` without orientation.
+    orientation_form_ : str or None
+        The form of the normals' factor used (None without orientation).
+    choice_ : str
+        The candidate kept: the kernel, with ``/form`` when several forms were
+        tried.
     candidates_ : dict
         ``{kernel: negative log marginal likelihood}`` of every kernel tried.
     rejected_ : list of str
@@ -179,10 +238,16 @@ class SurfaceGP:
 
     def __init__(self, distance, *, kernel: str = "exponential", spectrum=None, length_scale=None, variance=None,
                  nugget=None, mean_variance=None, normals=None, trend_variance=None, groups=None,
-                 orientation=False, normal_scale=None, trend=None):
+                 orientation=False, normal_scale=None, trend=None, orientation_kernel="se"):
         self.distance = np.asarray(distance, float)
         self.orientation = bool(orientation)
         self.normal_scale = normal_scale
+        forms = list(AUTO_ORIENTATION) if orientation_kernel == "auto" else [orientation_kernel]
+        for k in forms:
+            if k not in ORIENTATION_KERNELS:
+                raise InputError(f"orientation kernel {k!r} is not one of: auto, {', '.join(ORIENTATION_KERNELS)}")
+        self.orientation_kernel = orientation_kernel
+        self.orientation_forms = forms if self.orientation else [None]
         self.use_trend = normals is not None and (not orientation if trend is None else bool(trend))
         if self.orientation and normals is None:
             raise InputError("the orientation factor needs the nodes' normals")
@@ -207,7 +272,7 @@ class SurfaceGP:
 
     @classmethod
     def on_carrier(cls, carrier, *, kernel: str = "exponential", trend: str | None = None, groups=None,
-                   orientation: bool = False, **params):
+                   orientation: bool = False, orientation_kernel: str = "se", **params):
         """A model on a :class:`~meshpress.patches.Carrier`: its distances, and its spectrum and normals when
         ``kernel`` and ``trend`` need them.
 
@@ -230,7 +295,7 @@ class SurfaceGP:
         needs = any(k in SPECTRAL_KERNELS for k in kernel_names(kernel))
         return cls(carrier.distance, kernel=kernel, spectrum=carrier.spectrum() if needs else None,
                    normals=carrier.normals if (trend == "normal" or orientation) else None, groups=groups,
-                   orientation=orientation, trend=trend == "normal", **params)
+                   orientation=orientation, trend=trend == "normal", orientation_kernel=orientation_kernel, **params)
 
     # ------------------------------------------------------------------ fit
     def fit(self, tap_matrix, y, noise_var=None, *, length_bounds=None):
@@ -282,13 +347,16 @@ class SurfaceGP:
         best = fallback = None
         from threadpoolctl import threadpool_limits
 
-        for name in self.candidate_names:
+        for name, form in [(k, o) for k in self.candidate_names for o in self.orientation_forms]:
             # The fit is hundreds of small (taps x taps) factorisations: with two BLAS threads on a 2-core machine
             # that other jobs share, the threads' hand-offs cost more than the work (measured: 83 s against 17 s
             # for the 1M-face benchmark at load 3.4), so they run on one thread.
+            self._form = form
             with threadpool_limits(limits=1, user_api="blas"):
                 p, nll = self._fit_kernel(name, T, y, scale, dmax, length_bounds)
-            self.candidates_[name] = nll
+            p["form"] = form
+            p["key"] = name if len(self.orientation_forms) == 1 else f"{name}/{form}"
+            self.candidates_[p["key"]] = nll
             if fallback is None or (np.isfinite(nll) and not nll >= fallback[2]):
                 fallback = (name, p, nll)
             # A length scale beyond the largest surface distance means the kernel sees the whole body as one
@@ -304,6 +372,8 @@ class SurfaceGP:
         self.length_scale_, self.variance_, self.nugget_ = p["l"], p["s2"], p["nug"]
         self.trend_variance_ = p["tn"]
         self.normal_scale_ = p["th"]
+        self.orientation_form_ = p["form"]
+        self.choice_ = p["key"]
         self._condition()
         return self
 
@@ -370,9 +440,8 @@ class SurfaceGP:
             R, dR = corr(p["l"])
             R, dR = R * Btt, dR * Btt
             if C1 is not None:
-                F = np.exp(-C1 / p["th"] ** 2)
-                R, dR = R * F, dR * F
-                dth = R * (2.0 * C1 / p["th"] ** 2)  # d R / d log theta
+                F, dF = orientation_factor(C1, p["th"], self._form)
+                R, dR, dth = R * F, dR * F, R * dF  # dth: d R / d log theta
             S = self._tap_cov(p["s2"] * R, p["nug"], p["tn"])
             try:
                 c, low = sla.cho_factor(S, lower=True, check_finite=False)
@@ -464,7 +533,7 @@ class SurfaceGP:
             return 1.0
         u = self.tap_normals_ if rows_taps else self.normals
         v = self.tap_normals_ if cols_taps else self.normals
-        return np.exp(-(1.0 - u @ v.T) / self.normal_scale_**2)
+        return orientation_factor(1.0 - u @ v.T, self.normal_scale_, self.orientation_form_)[0]
 
     def _condition(self):
         """Prior covariance pieces at the fitted values, and the factorised tap covariance.
@@ -619,7 +688,7 @@ class SurfaceGP:
         trend = f", normal trend sd {np.sqrt(self.trend_variance_):.3g}" if self.trend_variance_ else ""
         regions = "" if self.groups is None else f", {len(np.unique(self.groups))} independent regions"
         if self.orientation and np.isfinite(self.normal_scale_):
-            regions = f", orientation scale {self.normal_scale_:.2g}" + regions
+            regions = f", orientation scale {self.normal_scale_:.2g} ({self.orientation_form_})" + regions
         return (f"kriging ({self.kernel_} along the surface, length {self.length_scale_:.3g} m, "
                 f"sd {np.sqrt(self.variance_):.3g}, nugget sd {np.sqrt(self.nugget_):.3g}{trend}{regions})")
 

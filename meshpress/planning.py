@@ -149,7 +149,8 @@ def greedy_plan(cov, a, n_add, *, candidates, blocked_from=(), distance=None, mi
 
 def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrier=None, n_patches=2500,
               q=None, ref_area=None, boxes=(), excluded_faces=None, min_spacing=0.05, length_scale=None,
-              kernel="exponential", regions=None, orientation: bool = True, progress=None) -> Plan:
+              kernel="exponential", regions=None, orientation: bool = True, orientation_kernel: str = "se",
+              progress=None) -> Plan:
     """Propose ``n_add`` tap positions that cut the chosen figures' uncertainty most.
 
     Parameters
@@ -179,6 +180,9 @@ def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrie
     orientation : bool
         The normals' factor in the model's correlation, as in the bands
         (needs three taps to fit it; docs/uncertainty.md measures both).
+    orientation_kernel : str
+        Its form (:func:`~meshpress.kriging.orientation_factor`); default
+        ``se``, the form the planning benchmark measured.
 
     Returns
     -------
@@ -209,7 +213,7 @@ def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrie
     n_taps = 0 if taps is None else len(taps)
     if n_taps >= 3:
         gp = SurfaceGP.on_carrier(carrier, kernel=kernel, length_scale=length_scale, groups=groups,
-                                  orientation=orientation)
+                                  orientation=orientation, orientation_kernel=orientation_kernel)
         gp.fit(carrier.points_matrix(taps.points), taps.values)
         cov = gp.posterior_cov()
         noise = gp.nugget_

@@ -374,7 +374,7 @@ def report_numbers(result: UncertaintyResult, figure: str = "CL") -> dict:
 def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | None = None, carrier=None,
                         n_patches: int = 2500, field=None, kernel: str = "auto", length_scale=None,
                         trend: str | None = None, regions=None, orientation: bool = True,
-                        progress=None) -> UncertaintyResult:
+                        orientation_kernel: str = "matern52", progress=None) -> UncertaintyResult:
     """Kriging estimate and band of every figure.
 
     Parameters
@@ -407,6 +407,11 @@ def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | Non
         Correlation also falls with the angle between the surface normals,
         at a scale fitted with the rest (:class:`~meshpress.kriging.SurfaceGP`;
         default on, docs/uncertainty.md measures both).
+    orientation_kernel : {"matern52", "se", "matern32", "exponential", "auto"}
+        Form of that factor (:func:`~meshpress.kriging.orientation_factor`);
+        default Matérn-5/2 of the angle between the normals (docs/uncertainty.md
+        measures each); ``auto`` keeps the one of highest marginal likelihood
+        among ``se``, ``matern52`` and ``matern32``.
 
     Returns
     -------
@@ -429,7 +434,7 @@ def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | Non
     a = carrier.fine_weights(G, B)
     T = carrier.points_matrix(taps.points)
     gp = SurfaceGP.on_carrier(carrier, kernel=kernel, trend=trend, length_scale=length_scale, groups=groups,
-                              orientation=orientation)
+                              orientation=orientation, orientation_kernel=orientation_kernel)
     gp.fit(T, taps.values, meas.tap_u**2)
     mean, var, Wk = gp.figures(a)
     closure = G.sum(axis=0)
@@ -450,8 +455,8 @@ def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | Non
         nll = {k: v for k, v in gp.candidates_.items() if np.isfinite(v)}
         if nll:
             others = ", ".join(f"{k} {v - gp.nll_:+.1f}" for k, v in sorted(nll.items(), key=lambda kv: kv[1])
-                               if k != gp.kernel_)
-            notes.append(f"kernel {gp.kernel_} chosen by marginal likelihood (the others' negative log-likelihood "
+                               if k != gp.choice_)
+            notes.append(f"kernel {gp.choice_} chosen by marginal likelihood (the others' negative log-likelihood "
                          f"above it: {others})")
         if gp.rejected_:
             notes.append(f"not used: {', '.join(gp.rejected_)} (length scale beyond the largest surface distance: "

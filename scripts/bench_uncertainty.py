@@ -14,7 +14,9 @@ band for information.
 Run: ``python scripts/bench_uncertainty.py [N] [n_patches] [cases] [kernels] [trend] [regions]`` (default 50,
 2500, hemisphere,wing,car, auto, none, none; trend "normal" adds a mean linear in the surface normal; regions
 is a ``--regions`` specification, e.g. "normal", applied to both the model and the RBF field; a seventh
-argument "on" adds the orientation factor to the model's correlation).
+argument "on" adds the orientation factor to the model's correlation, and an eighth names its form: se,
+exponential, matern32, matern52 (default, as in ``meshpress uncertainty``) or auto; the output file's name ends in
+``_orientation`` for se and ``_orientation-FORM`` for the others).
 """
 
 from __future__ import annotations
@@ -38,7 +40,8 @@ FIGS = ("CL", "CD", "CLF", "CLR")
 N_TAPS = {"hemisphere": 36, "wing": 48, "car": 57}
 
 
-def run_case(case, n_layouts, n_patches, rng, kernel="auto", trend=None, regions=None, orientation=False):
+def run_case(case, n_layouts, n_patches, rng, kernel="auto", trend=None, regions=None, orientation=False,
+             orientation_kernel="se"):
     body, cp, area = getattr(tc, case)()
     area = area or body.frontal_area()
     t0 = time.perf_counter()
@@ -61,7 +64,8 @@ def run_case(case, n_layouts, n_patches, rng, kernel="auto", trend=None, regions
             rbf = make_field("rbf", **({} if regions is None else {"regions": regions})).fit(body, taps)
             t = time.perf_counter()
             r = compute_uncertainty(body, taps, ref_area=area, meas=meas, carrier=car, field=rbf, kernel=kernel,
-                                    trend=trend, regions=regions, orientation=orientation)
+                                    trend=trend, regions=regions, orientation=orientation,
+                                    orientation_kernel=orientation_kernel)
             chosen[r.gp.kernel_] = chosen.get(r.gp.kernel_, 0) + 1
             times.append(time.perf_counter() - t)
             for f in FIGS:
@@ -98,10 +102,11 @@ def main():
     regions = sys.argv[6] if len(sys.argv) > 6 else "none"
     regions = None if regions == "none" else regions
     orientation = (sys.argv[7] if len(sys.argv) > 7 else "off") == "on"
+    okernel = sys.argv[8] if len(sys.argv) > 8 else "matern52"
     rng = np.random.default_rng(2026)
     report = {}
     for case in cases:
-        rows, tc_s, t_med, truth, chosen = run_case(case, n, n_patches, rng, kernel, trend, regions, orientation)
+        rows, tc_s, t_med, truth, chosen = run_case(case, n, n_patches, rng, kernel, trend, regions, orientation, okernel)
         report[case] = dict(kriging=summarise(rows), rbf_with_kriging_band=summarise(rows, "rbf_err"),
                             carrier_s=tc_s, median_band_s=t_med, truth={k: float(v) for k, v in truth.items()},
                             kernels_chosen=chosen)
@@ -112,7 +117,8 @@ def main():
             for k, v in report[case][est].items():
                 print(f"    {k:<16} coverage {v['coverage']:.2f}  rms err {v['rms_err']:.4f}  rms u {v['rms_u']:.4f}"
                       f"  1.96u/rms err {v['halfwidth_over_rms_err']:.2f}  (n={v['n']})")
-    tag = ("" if regions is None else "_regions-" + regions.replace(";", "+")) + ("_orientation" if orientation else "")
+    tag = (("" if regions is None else "_regions-" + regions.replace(";", "+")) + ("_orientation" if orientation else "")
+           + ("" if okernel == "se" or not orientation else "-" + okernel))
     out = (Path(__file__).resolve().parent
            / f"bench_uncertainty_{n}_{n_patches}_{'-'.join(cases)}_{kernel.replace(',', '+')}_{trend}{tag}.json")
     out.write_text(json.dumps(report, indent=1))

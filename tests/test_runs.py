@@ -383,7 +383,11 @@ def test_sheet_bands_from_the_readings_standard_errors(tmp_path):
     truth = -DZ * vol / c.load.ref_area_m2
     cl = ch.band("CL")
     assert cl.lo95 <= truth <= cl.hi95
-    assert cl.u < 0.3 * min(c.bands.band("CL").u, res.configurations["shifted"].bands.band("CL").u)
+    # What the taps miss is common to both runs and cancels: the change's sampling part is a small fraction of
+    # each run's, and its whole band narrower than either run's.
+    runs_cl = [c.bands.band("CL"), res.configurations["shifted"].bands.band("CL")]
+    assert cl.u_sampling < 0.3 * min(b.u_sampling for b in runs_cl)
+    assert cl.u < 0.5 * min(b.u for b in runs_cl)
     assert res.comparisons[0]["change"]["figures"]["CL"]["value"] == cl.value
     # q differs between configurations in general: the change has coefficients only
     assert "lift_N" not in ch.names and "lift_N" in c.bands.names

@@ -334,11 +334,16 @@ def test_regions_stop_the_band_leaking_between_plates():
     assert abs(split.value - 2.0) < abs(whole.value - 2.0)
 
 
-def test_orientation_factor_matches_scikit_learn_kernels_on_a_line():
+@pytest.mark.parametrize("form", ["se", "exponential", "matern32", "matern52"])
+def test_orientation_factor_matches_scikit_learn_kernels_on_a_line(form):
     # Reference: the GP posterior (Rasmussen and Williams 2006, eqs. 2.23-2.24) with the Gram matrices of
-    # scikit-learn's kernels: ConstantKernel + ConstantKernel * Matern(nu=0.5) on the position times RBF(theta) on
-    # the unit normal, because exp(-(1 - n.n') / theta^2) = exp(-|n - n'|^2 / (2 theta^2)) for unit vectors.
+    # scikit-learn's kernels: ConstantKernel + ConstantKernel * Matern(nu=0.5) on the position times a kernel of
+    # the unit normal: RBF(theta), because exp(-(1 - n.n') / theta^2) = exp(-|n - n'|^2 / (2 theta^2)) for unit
+    # vectors; Matern(theta, nu=0.5 or 1.5) of the chordal distance |n - n'| for the rougher forms.
     from sklearn.gaussian_process.kernels import RBF, Matern
+
+    ref = {"se": RBF(0.6), "exponential": Matern(0.6, nu=0.5), "matern32": Matern(0.6, nu=1.5),
+           "matern52": Matern(0.6, nu=2.5)}[form]
 
     x = np.linspace(0.0, 2.0, 61)
     d = np.abs(x[:, None] - x[None, :])
@@ -349,14 +354,67 @@ def test_orientation_factor_matches_scikit_learn_kernels_on_a_line():
     T = np.zeros((len(idx), len(x)))
     T[np.arange(len(idx)), idx] = 1.0
     gp = SurfaceGP(d, kernel="exponential", length_scale=0.5, variance=0.7, nugget=1e-3, mean_variance=4.0,
-                   normals=nrm, orientation=True, normal_scale=0.6).fit(T, y)
-    K = 4.0 + 0.7 * Matern(0.5, nu=0.5)(x[:, None]) * RBF(0.6)(nrm)
+                   normals=nrm, orientation=True, normal_scale=0.6, orientation_kernel=form).fit(T, y)
+    K = 4.0 + 0.7 * Matern(0.5, nu=0.5)(x[:, None]) * ref(nrm)
     S = K[np.ix_(idx, idx)] + 1e-3 * np.eye(len(idx))
     mu = K[:, idx] @ np.linalg.solve(S, y)
     var = np.diag(K) - np.einsum("ij,ji->i", K[:, idx], np.linalg.solve(S, K[idx, :]))
     np.testing.assert_allclose(gp.node_mean(), mu, atol=1e-8)
     np.testing.assert_allclose(gp.node_var(), var, atol=1e-8)
     np.testing.assert_allclose(gp.K_, K, atol=1e-12)
+
+
+@pytest.mark.parametrize("form", ["se", "matern32", "matern52"])
+def test_orientation_scale_is_fitted_at_the_likelihood_optimum(form):
+    # Maximum likelihood (R&W eq. 2.30): at the fitted theta the log likelihood, evaluated directly by a Cholesky
+    # factorisation (independent of the fit's analytic gradient), must not rise when theta moves 5 % either way.
+    x = np.linspace(0.0, 2.0, 61)
+    d = np.abs(x[:, None] - x[None, :])
+    phi = np.pi * np.clip(x - 0.5, 0, 1)
+    nrm = np.column_stack([np.cos(phi), np.sin(phi), np.zeros_like(x)])
+    idx = np.arange(1, 61, 3)
+    y = np.cos(2 * phi[idx]) + 0.3 * np.sin(3 * x[idx])
+    T = np.zeros((len(idx), len(x)))
+    T[np.arange(len(idx)), idx] = 1.0
+    gp = SurfaceGP(d, kernel="exponential", length_scale=0.8, variance=0.5, nugget=1e-4, mean_variance=4.0,
+                   normals=nrm, orientation=True, orientation_kernel=form).fit(T, y)
+    th = gp.normal_scale_
+    assert 0.1 < th < 10.0  # an interior optimum, not a bound
+
+    def loglik(t):
+        from meshpress.kriging import orientation_factor
+
+        n = nrm[idx]
+        F = orientation_factor(1.0 - n @ n.T, t, form)[0]
+        K = 4.0 + 0.5 * np.exp(-d[np.ix_(idx, idx)] / 0.8) * F + 1e-4 * np.eye(len(idx))
+        c = np.linalg.cholesky(K)
+        a = np.linalg.solve(c, y)
+        return -0.5 * a @ a - np.log(np.diag(c)).sum() - 0.5 * len(idx) * np.log(2 * np.pi)
+
+    best = loglik(th)
+    assert gp.log_marginal_likelihood(0.8, 0.5, 1e-4) == pytest.approx(best, abs=1e-8)  # the model agrees
+    for f in (0.95, 1.05):
+        assert loglik(th * f) <= best + 1e-7
+
+
+def test_orientation_kernel_auto_keeps_the_form_of_highest_likelihood():
+    # Type-II maximum likelihood model choice (R&W 2006, sec. 5.4): "auto" fits both forms and keeps the one of the
+    # lowest negative log marginal likelihood; its posterior is then that of the form fitted alone.
+    x = np.linspace(0.0, 2.0, 81)
+    d = np.abs(x[:, None] - x[None, :])
+    phi = np.pi * np.clip(x - 0.5, 0, 1)
+    nrm = np.column_stack([np.cos(phi), np.sin(phi), np.zeros_like(x)])
+    idx = np.arange(0, 81, 3)
+    y = np.abs(np.cos(phi[idx])) ** 0.5 - 0.6 * (phi[idx] > 1.2)  # a cusp and a step in the normal's angle
+    T = np.zeros((len(idx), len(x)))
+    T[np.arange(len(idx)), idx] = 1.0
+    kw = dict(kernel="exponential", length_scale=0.8, nugget=1e-4, mean_variance=4.0, normals=nrm, orientation=True)
+    auto = SurfaceGP(d, orientation_kernel="auto", **kw).fit(T, y)
+    assert set(auto.candidates_) == {"exponential/se", "exponential/matern52", "exponential/matern32"}
+    assert auto.nll_ == min(auto.candidates_.values())
+    alone = SurfaceGP(d, orientation_kernel=auto.orientation_form_, **kw).fit(T, y)
+    np.testing.assert_allclose(auto.node_mean(), alone.node_mean(), atol=1e-10)
+    assert auto.choice_ == f"exponential/{auto.orientation_form_}"
 
 
 def test_orientation_keeps_the_two_faces_of_a_plate_apart():

@@ -47,11 +47,18 @@ def add_gp_kernel_option(g, default: str, about: str):
                    help=f"kriging correlation along the surface (default {default}: {about})")
 
 
-def add_gp_orientation_option(g, default: bool):
-    """``--orientation-gp on|off``: the normals' factor in the kriging correlation."""
+def add_gp_orientation_option(g, default: bool, form: str):
+    """``--orientation-gp on|off`` and ``--orientation-kernel``: the normals' factor in the kriging correlation
+    and its form."""
+    from ..kriging import ORIENTATION_KERNELS
+
     g.add_argument("--orientation-gp", default="on" if default else "off", choices=("on", "off"),
                    help="kriging correlation also falls with the angle between the surface normals, at a scale "
                         f"fitted to the taps (default {'on' if default else 'off'}; docs/uncertainty.md)")
+    g.add_argument("--orientation-kernel", default=form, choices=("auto",) + ORIENTATION_KERNELS,
+                   help=f"form of that fall with the angle (default {form}; auto: the one of se, matern52 and "
+                        "matern32 the taps' marginal likelihood prefers; docs/uncertainty.md)")
+
 
 
 def add_field_options(p, method_help=None):

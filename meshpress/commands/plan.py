@@ -34,7 +34,7 @@ def add_parser(sub):
                    help="model these regions as independent fields (as 'loads --regions': 'normal', "
                         "'edges[:ANGLE]', planes, boxes or a face label file)")
     add_gp_kernel_option(p, "exponential", "see meshpress uncertainty --help and docs/uncertainty.md")
-    add_gp_orientation_option(p, True)
+    add_gp_orientation_option(p, True, form="se")
     p.add_argument("--out", default="planned_taps.csv", help="CSV of the new taps, mesh coordinates and unit "
                                                              "(default planned_taps.csv)")
     p.add_argument("--picture", metavar="PNG", help="write a picture of the plan")
@@ -113,7 +113,8 @@ def run(args) -> int:
                      boxes=_boxes(args.exclude_box, body), excluded_faces=_faces(args.exclude_faces, body),
                      min_spacing=spacing, length_scale=ell, q=resolve_q(args.q, speed_mps(args.speed), args.air_density),
                      ref_area=args.ref_area, kernel=args.kernel_gp, regions=args.regions,
-                     orientation=args.orientation_gp == "on", progress=progress)
+                     orientation=args.orientation_gp == "on", orientation_kernel=args.orientation_kernel,
+                     progress=progress)
     pts = body.frame.to_mesh(plan.points) if body.frame else plan.points
     existing = set(taps.names) if taps is not None else set()
     names, k = [], 1

@@ -45,7 +45,7 @@ def add_parser(sub):
                                                                         "(default 2500)")
     add_gp_kernel_option(g, "auto", "the best marginal likelihood among exponential and the Laplace-Beltrami "
                                     "Matérn 1/2, 3/2, 5/2 and heat kernels")
-    add_gp_orientation_option(g, True)
+    add_gp_orientation_option(g, True, form="matern52")
     c = p.add_argument_group("change from a baseline (docs/uncertainty.md)")
     c.add_argument("--baseline", metavar="BASE_TAPS",
                    help="tap table of the baseline configuration on the same taps: every figure's change "
@@ -203,7 +203,8 @@ def run(args) -> int:
     sensor = _sensor(args, taps.kind)
     meas = Measurement.build(len(taps), tap_u=tap_u, sensor=sensor, u_p_ref=args.u_p_ref, u_q_rel=u_q_rel)
     gp_kw = dict(q=q, ref_area=loads.ref_area_m2, carrier=carrier, kernel=args.kernel_gp, regions=args.regions,
-                 orientation=args.orientation_gp == "on", progress=progress)
+                 orientation=args.orientation_gp == "on", orientation_kernel=args.orientation_kernel,
+                 progress=progress)
     with progress.step("kriging bands"):
         unc = compute_uncertainty(body, taps, meas=meas, field=field, **gp_kw)
     change = None
