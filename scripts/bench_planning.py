@@ -8,14 +8,16 @@ CL, CLF, CLR is compared with the truth.  Reported: mean absolute actual error
 over the cases (and the mean predicted u), for 40 taps, 40 + planned, 40 +
 random.  The RBF field's errors are given for information.
 
-Run: ``python scripts/bench_planning.py [n_cases] [planner_orientation] [n_random]`` (default 12, on, 1;
-"off" plans without the orientation factor; ``n_random`` draws of the 20 random taps per case,
-whose errors are averaged, so the random side of the comparison is less noisy).  The estimate is ``compute_uncertainty``'s default (orientation
+Run: ``python scripts/bench_planning.py [n_cases] [planner_orientation] [n_random] [planner_form]`` (default 12,
+on, 1, se; "off" plans without the orientation factor; ``n_random`` draws of the 20 random taps per case,
+whose errors are averaged, so the random side of the comparison is less noisy; ``planner_form`` the form of the
+planner's orientation factor, as ``plan --orientation-kernel``).  The estimate is ``compute_uncertainty``'s default (orientation
 factor on).
 """
 
 from __future__ import annotations
 
+import inspect
 import json
 import sys
 import time
@@ -32,12 +34,15 @@ from meshpress.planning import plan_taps  # noqa: E402
 from meshpress.uncertainty import compute_uncertainty, figure_face_weights  # noqa: E402
 
 FIGS = ("CL", "CLF", "CLR")
+#: The estimate's orientation form: compute_uncertainty's default (recorded in the output's name and content).
+EST_FORM = inspect.signature(compute_uncertainty).parameters["orientation_kernel"].default
 
 
 def main():
     n_cases = int(sys.argv[1]) if len(sys.argv) > 1 else 12
     orient = (sys.argv[2] if len(sys.argv) > 2 else "on") == "on"
     n_random = int(sys.argv[3]) if len(sys.argv) > 3 else 1
+    form = sys.argv[4] if len(sys.argv) > 4 else "se"
     rng = np.random.default_rng(11)
     body, cp, _ = tc.car()
     area = body.frontal_area()
@@ -53,7 +58,7 @@ def main():
         t0 = tc.make_taps(body, cp, base)
         t = time.perf_counter()
         plan = plan_taps(body, t0, figures=FIGS, n_add=20, carrier=car, ref_area=area, min_spacing=0.1,
-                         orientation=orient)
+                         orientation=orient, orientation_kernel=form)
         t_plan.append(time.perf_counter() - t)
         sets = [("base40", base), ("planned", np.vstack([base, plan.points]))]
         sets += [("random", np.vstack([base, tc.random_surface_points(body, 20, rng)])) for _ in range(n_random)]
@@ -73,7 +78,8 @@ def main():
                 res_rbf[k][f].append(e_rbf)
         print(f"case {c + 1}/{n_cases}: " + "  ".join(
             f"{k} " + ",".join(f"{res[k][f][-1]:.3f}" for f in FIGS) for k in res), flush=True)
-    out = {"n_cases": n_cases, "planner_orientation": orient, "n_random": n_random, "median_plan_s": float(np.median(t_plan)), "truth": {f: truth[f] for f in FIGS}}
+    out = {"n_cases": n_cases, "planner_orientation": orient, "planner_form": form,
+           "estimate_form": EST_FORM, "n_random": n_random, "median_plan_s": float(np.median(t_plan)), "truth": {f: truth[f] for f in FIGS}}
     for k in res:
         out[k] = {f: {"mean_abs_err": float(np.mean(res[k][f])), "mean_u": float(np.mean(res_u[k][f])),
                       "rbf_mean_abs_err": float(np.mean(res_rbf[k][f]))} for f in FIGS}
@@ -82,7 +88,8 @@ def main():
         p, r = out["planned"][f]["mean_abs_err"], out["random"][f]["mean_abs_err"]
         print(f"{f}: mean |error| base {out['base40'][f]['mean_abs_err']:.4f}  +20 planned {p:.4f}  "
               f"+20 random {r:.4f}  planned/random {p / r:.2f}")
-    tag = ("_orientation" if orient else "") + (f"_r{n_random}" if n_random > 1 else "")
+    tag = (("_orientation" if orient else "") + (f"-{form}" if orient and form != "se" else "")
+           + (f"_r{n_random}" if n_random > 1 else "") + (f"_estimate-{EST_FORM}" if EST_FORM != "se" else ""))
     (Path(__file__).resolve().parent / f"bench_planning_{n_cases}{tag}.json").write_text(json.dumps(out, indent=1))
 
 
