@@ -209,8 +209,8 @@ class SurfaceGP:
     orientation_kernel : {"se", "matern52", "matern32", "exponential", "auto"}
         Form of the normals' factor (:func:`orientation_factor`); ``auto``
         keeps the best of :data:`AUTO_ORIENTATION` by marginal likelihood.
-        (``compute_uncertainty`` and ``compute_change`` default to
-        ``matern52``; the planner and this class to ``se``.)
+        (``compute_uncertainty``, ``compute_change`` and ``plan_taps``
+        default to ``matern52``; this class to ``se``.)
     trend : bool, optional
         Use ``normals`` for the trend; default: yes unless ``orientation``.
 

@@ -9,7 +9,7 @@ over the cases (and the mean predicted u), for 40 taps, 40 + planned, 40 +
 random.  The RBF field's errors are given for information.
 
 Run: ``python scripts/bench_planning.py [n_cases] [planner_orientation] [n_random] [planner_form]`` (default 12,
-on, 1, se; "off" plans without the orientation factor; ``n_random`` draws of the 20 random taps per case,
+on, 1, matern52; "off" plans without the orientation factor; ``n_random`` draws of the 20 random taps per case,
 whose errors are averaged, so the random side of the comparison is less noisy; ``planner_form`` the form of the
 planner's orientation factor, as ``plan --orientation-kernel``).  The estimate is ``compute_uncertainty``'s default (orientation
 factor on).
@@ -42,7 +42,7 @@ def main():
     n_cases = int(sys.argv[1]) if len(sys.argv) > 1 else 12
     orient = (sys.argv[2] if len(sys.argv) > 2 else "on") == "on"
     n_random = int(sys.argv[3]) if len(sys.argv) > 3 else 1
-    form = sys.argv[4] if len(sys.argv) > 4 else "se"
+    form = sys.argv[4] if len(sys.argv) > 4 else "matern52"
     rng = np.random.default_rng(11)
     body, cp, _ = tc.car()
     area = body.frontal_area()

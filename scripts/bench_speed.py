@@ -7,7 +7,8 @@ distances, kriging fit, bands: what ``meshpress uncertainty`` adds to
 ``loads``), and plan_taps for 20 taps (building its own carrier, as the
 ``plan`` command does).  Mesh file reading is not included.
 
-Run: ``python scripts/bench_speed.py``.
+Run: ``python scripts/bench_speed.py [form...]`` (the bands' orientation forms to time in turn on the same body
+and taps; default the one ``compute_uncertainty`` uses).
 """
 
 from __future__ import annotations
@@ -34,14 +35,17 @@ def main():
     rng = np.random.default_rng(4)
     taps = tc.make_taps(body, cp, tc.random_surface_points(body, 200, rng))
     area = 2.0
-    t = time.perf_counter()
-    r = compute_uncertainty(body, taps, ref_area=area)
-    t_unc = time.perf_counter() - t
+    t_unc = {}
+    for form in sys.argv[1:] or [None]:
+        t = time.perf_counter()
+        r = compute_uncertainty(body, taps, ref_area=area, **({} if form is None else {"orientation_kernel": form}))
+        t_unc[form or "default"] = time.perf_counter() - t
     t = time.perf_counter()
     plan = plan_taps(body, taps, figures=("CL", "CLF", "CLR"), n_add=20, ref_area=area, min_spacing=0.1)
     t_plan = time.perf_counter() - t
     print(f"faces {body.n_faces:,}, taps {len(taps)}, cores {os.cpu_count()}, load {os.getloadavg()[0]:.1f}")
-    print(f"body arrays {t_body:.1f} s; uncertainty {t_unc:.1f} s; planning 20 taps {t_plan:.1f} s")
+    print(f"body arrays {t_body:.1f} s; uncertainty " + ", ".join(f"{k} {v:.1f} s" for k, v in t_unc.items())
+          + f"; planning 20 taps {t_plan:.1f} s")
     print("CL", r.band("CL"), "\nplanned CL u", plan.u_before[0], "->", plan.u_after[0])
 
 

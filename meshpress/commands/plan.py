@@ -34,7 +34,7 @@ def add_parser(sub):
                    help="model these regions as independent fields (as 'loads --regions': 'normal', "
                         "'edges[:ANGLE]', planes, boxes or a face label file)")
     add_gp_kernel_option(p, "exponential", "see meshpress uncertainty --help and docs/uncertainty.md")
-    add_gp_orientation_option(p, True, form="se")
+    add_gp_orientation_option(p, True, form="matern52")
     p.add_argument("--out", default="planned_taps.csv", help="CSV of the new taps, mesh coordinates and unit "
                                                              "(default planned_taps.csv)")
     p.add_argument("--picture", metavar="PNG", help="write a picture of the plan")
