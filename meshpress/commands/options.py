@@ -84,6 +84,10 @@ def add_field_options(p, method_help=None):
     g.add_argument("--trend", default=None, choices=("constant", "normal", "auto"),
                    help="mean of the geodesic and kriging fields: constant (default), linear in the surface normal, "
                         "or (geodesic) chosen by leave-one-out; docs/accuracy.md measures both")
+    g.add_argument("--orientation", default="off", choices=("on", "off"),
+                   help="geodesic field: the kernel also falls with the angle between the surface normals, at a scale "
+                        "chosen by leave-one-out with the length (default off; on for wings and thin parts; "
+                        "docs/accuracy.md)")
     g.add_argument("--work-faces", type=int, default=None, metavar="N",
                    help="surface methods solve on a copy simplified to N faces (default 80000)")
     g.add_argument("--band", type=float, default=0.05, metavar="W",
@@ -127,7 +131,8 @@ def method_settings(args, method=None) -> dict:
         s = {"kernel": args.kernel or "thin_plate_spline", "smoothing": args.smoothing, **common}
     elif method == "geodesic":
         s = {"kernel": args.kernel or "matern52", "length": args.length, "nugget": args.nugget,
-             "trend": args.trend or "constant", **work, **common}
+             "trend": args.trend or "constant", "orientation": getattr(args, "orientation", "off") == "on", **work,
+             **common}
     elif method in ("biharmonic", "harmonic", "nearest"):
         s = {**work, **common}
     elif method == "strip":
