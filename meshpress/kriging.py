@@ -229,8 +229,8 @@ class SurfaceGP:
     candidates_ : dict
         ``{kernel: negative log marginal likelihood}`` of every kernel tried.
     rejected_ : list of str
-        Kernels whose fitted length scale exceeds the largest node distance
-        (not used when another one did not).
+        Candidates (named as in ``candidates_``) whose fitted length scale
+        exceeds the largest node distance (not used when another one did not).
     clipped_ : float
         Diagonal shift added to a distance kernel's correlation matrix to make
         it positive definite (0 when it already was, always 0 for ``lb-``).
@@ -351,31 +351,36 @@ class SurfaceGP:
             # The fit is hundreds of small (taps x taps) factorisations: with two BLAS threads on a 2-core machine
             # that other jobs share, the threads' hand-offs cost more than the work (measured: 83 s against 17 s
             # for the 1M-face benchmark at load 3.4), so they run on one thread.
-            self._form = form
             with threadpool_limits(limits=1, user_api="blas"):
-                p, nll = self._fit_kernel(name, T, y, scale, dmax, length_bounds)
-            p["form"] = form
-            p["key"] = name if len(self.orientation_forms) == 1 else f"{name}/{form}"
-            self.candidates_[p["key"]] = nll
-            if fallback is None or (np.isfinite(nll) and not nll >= fallback[2]):
-                fallback = (name, p, nll)
+                p, nll = self._fit_kernel(name, form, T, y, scale, dmax, length_bounds)
+            key = self._candidate_key(name, form)
+            self.candidates_[key] = nll
+            if fallback is None or (np.isfinite(nll) and not nll >= fallback[3]):
+                fallback = (name, form, p, nll)
             # A length scale beyond the largest surface distance means the kernel sees the whole body as one
             # constant plus noise: on a closed body every force of a constant is zero, so its bands collapse to
             # nothing (measured on a wing whose upper and lower taps are a few mm apart round the leading edge:
             # CL 0 +/- 2e-9 against a true 0.49).  Such a fit is not used while another kernel fits without it.
             if len(self.candidate_names) > 1 and self.length_scale is None and p["l"] >= dmax:
-                self.rejected_.append(name)
+                self.rejected_.append(key)
                 continue
-            if best is None or (np.isfinite(nll) and not nll >= best[2]):
-                best = (name, p, nll)
-        self.kernel_, p, self.nll_ = best or fallback
+            if best is None or (np.isfinite(nll) and not nll >= best[3]):
+                best = (name, form, p, nll)
+        self.kernel_, self.orientation_form_, p, self.nll_ = best or fallback
         self.length_scale_, self.variance_, self.nugget_ = p["l"], p["s2"], p["nug"]
         self.trend_variance_ = p["tn"]
         self.normal_scale_ = p["th"]
-        self.orientation_form_ = p["form"]
-        self.choice_ = p["key"]
         self._condition()
         return self
+
+    def _candidate_key(self, name, form) -> str:
+        """The name of a candidate in ``candidates_``: the kernel, with ``/form`` when several forms are tried."""
+        return name if len(self.orientation_forms) == 1 else f"{name}/{form}"
+
+    @property
+    def choice_(self) -> str:
+        """The candidate kept, named as in ``candidates_``."""
+        return self._candidate_key(self.kernel_, self.orientation_form_)
 
     def _tap_corr_fn(self, name, T):
         """Function ``l -> (R, dR/dlog l)``: tap-by-tap correlation ``T R(l) T^T`` and its derivative, (n, n)."""
@@ -406,7 +411,7 @@ class SurfaceGP:
             return np.asarray(TJ @ np.asarray(TJ @ k).T), np.asarray(TJ @ np.asarray(TJ @ dk).T)
         return corr
 
-    def _fit_kernel(self, name, T, y, scale, dmax, length_bounds):
+    def _fit_kernel(self, name, form, T, y, scale, dmax, length_bounds):
         n = len(y)
         corr = self._tap_corr_fn(name, T)
         fixed = {"l": self.length_scale, "s2": self.variance, "nug": self.nugget,
@@ -440,7 +445,7 @@ class SurfaceGP:
             R, dR = corr(p["l"])
             R, dR = R * Btt, dR * Btt
             if C1 is not None:
-                F, dF = orientation_factor(C1, p["th"], self._form)
+                F, dF = orientation_factor(C1, p["th"], form)
                 R, dR, dth = R * F, dR * F, R * dF  # dth: d R / d log theta
             S = self._tap_cov(p["s2"] * R, p["nug"], p["tn"])
             try:

@@ -60,7 +60,6 @@ def add_gp_orientation_option(g, default: bool, form: str):
                         "matern32 the taps' marginal likelihood prefers; docs/uncertainty.md)")
 
 
-
 def add_field_options(p, method_help=None):
     """Field options; ``method_help`` replaces the help of ``--method`` and makes its default None (so a
     command can tell whether it was given)."""
@@ -131,8 +130,7 @@ def method_settings(args, method=None) -> dict:
         s = {"kernel": args.kernel or "thin_plate_spline", "smoothing": args.smoothing, **common}
     elif method == "geodesic":
         s = {"kernel": args.kernel or "matern52", "length": args.length, "nugget": args.nugget,
-             "trend": args.trend or "constant", "orientation": getattr(args, "orientation", "off") == "on", **work,
-             **common}
+             "trend": args.trend or "constant", "orientation": args.orientation == "on", **work, **common}
     elif method in ("biharmonic", "harmonic", "nearest"):
         s = {**work, **common}
     elif method == "strip":

@@ -65,6 +65,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import InputError
+from ..kriging import orientation_factor
 from .base import Field
 from .bounds import BoundedMixin
 from .kernels import GEODESIC_KERNELS, matern, nested_residuals, solve_with_nested
@@ -72,7 +73,8 @@ from .surface_common import TARGET_FACES, by_point_chunks, check_common, normals
 
 TRENDS = ("auto", "constant", "normal")
 
-#: Finite scales of the normals' factor tried beside "none" (Matérn-5/2 of the chordal distance of the normals).
+#: Form of the normals' factor (as the kriging bands'), and its finite scales tried beside "none".
+ORIENTATION_FORM = "matern52"
 ORIENTATION_RUNGS = (1.0, 0.6, 0.35)
 
 #: Smallest rms spread of the taps' unit normals along a direction (about 6 degrees) for the trend to use it:
@@ -185,14 +187,14 @@ class GeodesicRBFField(BoundedMixin, Field):
             lengths = list(np.geomspace(lo, hi, 12))
         best = None
         loos, inners = [], []
-        from ..kriging import orientation_factor
-
+        # Each length's kernel and each scale's factor once; the ladder tries their products.
         C1 = 1.0 - tap_normals @ tap_normals.T
-        thetas = [np.inf] + (list(ORIENTATION_RUNGS) if self.orientation else [])
-        for ell, th in [(e, t) for e in lengths for t in thetas]:
-            K = matern(self.kernel, Dt, ell)
-            if np.isfinite(th):
-                K = K * orientation_factor(C1, th, "matern52")[0]
+        factors = {np.inf: 1.0}
+        if self.orientation:
+            factors.update({t: orientation_factor(C1, t, ORIENTATION_FORM)[0] for t in ORIENTATION_RUNGS})
+        by_length = {ell: matern(self.kernel, Dt, ell) for ell in lengths}
+        for ell, th in [(e, t) for e in lengths for t in factors]:
+            K = by_length[ell] * factors[th]
             lam = float(np.linalg.eigvalsh(0.5 * (K + K.T))[0])
             # Lift an indefinite spectrum to +|lam_min|, then try nuggets on top; the
             # leave-one-out error (Rippa's closed form holds with a ridge) picks one.
@@ -233,9 +235,7 @@ class GeodesicRBFField(BoundedMixin, Field):
         """(k, p) float: the normals' factor between the taps and points of unit normals (p, 3), or 1."""
         if not np.isfinite(self.theta_):
             return 1.0
-        from ..kriging import orientation_factor
-
-        return orientation_factor(1.0 - self.tap_normals_ @ np.asarray(normals).T, self.theta_, "matern52")[0]
+        return orientation_factor(1.0 - self.tap_normals_ @ np.asarray(normals).T, self.theta_, ORIENTATION_FORM)[0]
 
     def _vertex_values(self):
         return (self.coef_ @ (matern(self.kernel, self.distances_, self.length_) * self._orient(self.vertex_normals_))
