@@ -209,7 +209,8 @@ def assumptions_text(correlation: float) -> list:
 def compute_change(body, taps, y_base, y_other, *, err_base: ErrorSources, err_other: ErrorSources,
                    correlation: float = 1.0, q=None, ref_area, carrier=None, n_patches: int = 2500,
                    kernel: str = "auto", base_result=None, other_result=None, field_change=None,
-                   base_label="base", other_label="other", regions=None, orientation: bool = True,
+                   base_label="base", other_label="other", regions=None, trend: str | None = "newtonian",
+                   orientation: bool = True,
                    orientation_kernel: str = "matern52", progress=None) -> ChangeResult:
     """Kriging estimate and band of every figure's change ``other - base`` on shared taps.
 
@@ -239,6 +240,8 @@ def compute_change(body, taps, y_base, y_other, *, err_base: ErrorSources, err_o
         Passed to :class:`~meshpress.kriging.SurfaceGP`.
     regions : str or (m,) array, optional
         Independent regions of the model (:func:`~meshpress.uncertainty.compute_uncertainty`).
+    trend : {"newtonian", "normal", None}
+        The model's mean (:func:`~meshpress.uncertainty.compute_uncertainty`).
     orientation, orientation_kernel
         The normals' factor in the model's correlation and its form (as there).
 
@@ -256,7 +259,8 @@ def compute_change(body, taps, y_base, y_other, *, err_base: ErrorSources, err_o
     rho = _check_rho(correlation)
     if carrier is None:
         carrier = Carrier(body, n_patches, progress=progress)
-    kw = dict(q=q, ref_area=ref_area, carrier=carrier, kernel=kernel, regions=regions, orientation=orientation,
+    kw = dict(q=q, ref_area=ref_area, carrier=carrier, kernel=kernel, regions=regions, trend=trend,
+              orientation=orientation,
               orientation_kernel=orientation_kernel, progress=progress)
     if base_result is None:
         base_result = compute_uncertainty(body, taps.with_values(y_base), meas=err_base.measurement(), **kw)

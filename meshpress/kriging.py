@@ -94,6 +94,30 @@ AUTO_KERNELS = ("exponential",) + tuple(SPECTRAL_KERNELS)  # candidates of kerne
 NUGGET_MAX = 0.1  # largest fitted nugget, as a fraction of the field variance
 ORIENTATION_KERNELS = ("se", "exponential", "matern32", "matern52")  # forms of the normals' factor (orientation_factor)
 AUTO_ORIENTATION = ("se", "matern52", "matern32")  # candidates of orientation_kernel="auto"
+TRENDS = ("normal", "newtonian")  # trend bases (trend_features)
+
+
+def trend_features(normals, basis="normal"):
+    """(n, p) float: the trend's basis functions of the unit normals.
+
+    ``"normal"``: the normal itself (p = 3), a mean linear in the way the
+    skin faces.  ``"newtonian"``: ``max(-n_x, 0)^2`` and ``max(n_x, 0)``
+    (p = 2): the impact pressure of Newton's sine-squared law on skin facing
+    the flow (the oncoming flow runs along +x; Cp = Cp_max cos^2 of the angle
+    between the normal and the oncoming flow, Lees 1955, "modified Newtonian"
+    theory; Anderson, Hypersonic and High-Temperature Gas Dynamics, ch. 3),
+    and a level on rear-facing skin, where a bluff body's base sits in a
+    separated wake of nearly uniform pressure (Hoerner, Fluid-Dynamic Drag,
+    1965, ch. 3).  Both enter with coefficients of prior variance ``t^2``
+    fitted to the taps, so they are a shape the data may use, not a value
+    imposed.
+    """
+    n = np.asarray(normals, float)
+    if basis == "normal":
+        return n
+    if basis == "newtonian":
+        return np.column_stack([np.clip(-n[:, 0], 0.0, None) ** 2, np.clip(n[:, 0], 0.0, None)])
+    raise InputError(f"trend basis must be one of {', '.join(TRENDS)}, got {basis!r}")
 
 
 def orientation_factor(c1, theta, form="se"):
@@ -238,7 +262,7 @@ class SurfaceGP:
 
     def __init__(self, distance, *, kernel: str = "exponential", spectrum=None, length_scale=None, variance=None,
                  nugget=None, mean_variance=None, normals=None, trend_variance=None, groups=None,
-                 orientation=False, normal_scale=None, trend=None, orientation_kernel="se"):
+                 orientation=False, normal_scale=None, trend=None, orientation_kernel="se", trend_basis="normal"):
         self.distance = np.asarray(distance, float)
         self.orientation = bool(orientation)
         self.normal_scale = normal_scale
@@ -249,6 +273,7 @@ class SurfaceGP:
         self.orientation_kernel = orientation_kernel
         self.orientation_forms = forms if self.orientation else [None]
         self.use_trend = normals is not None and (not orientation if trend is None else bool(trend))
+        self.trend_basis = trend_basis
         if self.orientation and normals is None:
             raise InputError("the orientation factor needs the nodes' normals")
         self.groups = None if groups is None else np.asarray(groups).ravel()
@@ -267,6 +292,7 @@ class SurfaceGP:
         self.variance = variance
         self.nugget = nugget
         self.normals = None if normals is None else np.asarray(normals, float)
+        self.basis = None if normals is None else trend_features(self.normals, trend_basis)
         self.trend_variance = trend_variance
         self.mean_variance = mean_variance
 
@@ -290,12 +316,13 @@ class SurfaceGP:
         **params
             Further constructor arguments (``length_scale`` and the others).
         """
-        if trend not in (None, "normal"):
-            raise InputError(f"kriging trend must be 'normal' or none, got {trend!r}")
+        if trend not in (None,) + TRENDS:
+            raise InputError(f"kriging trend must be one of {', '.join(TRENDS)} or none, got {trend!r}")
         needs = any(k in SPECTRAL_KERNELS for k in kernel_names(kernel))
         return cls(carrier.distance, kernel=kernel, spectrum=carrier.spectrum() if needs else None,
-                   normals=carrier.normals if (trend == "normal" or orientation) else None, groups=groups,
-                   orientation=orientation, trend=trend == "normal", orientation_kernel=orientation_kernel, **params)
+                   normals=carrier.normals if (trend is not None or orientation) else None, groups=groups,
+                   orientation=orientation, trend=trend is not None, trend_basis=trend or "normal",
+                   orientation_kernel=orientation_kernel, **params)
 
     # ------------------------------------------------------------------ fit
     def fit(self, tap_matrix, y, noise_var=None, *, length_bounds=None):
@@ -334,7 +361,7 @@ class SurfaceGP:
         # Trend on the surface normal (universal kriging, Cressie 1993 sec. 3.4; R&W sec. 2.7): forward-, rear-,
         # up- and down-facing skin see systematically different pressure (stagnation on the nose, base pressure,
         # suction over the top), which a stationary residual cannot carry into places no tap sees.
-        self.TN_ = None if not self.use_trend else np.asarray(T @ self.normals)  # (n, 3)
+        self.TN_ = None if not self.use_trend else np.asarray(T @ self.basis)  # (n, p)
         if self.orientation:
             nt = np.asarray(T @ self.normals)
             self.tap_normals_ = nt / np.maximum(np.linalg.norm(nt, axis=1, keepdims=True), 1e-12)
@@ -580,7 +607,7 @@ class SurfaceGP:
         TK = (tau2 + TR * self._orient(True, False)) * self._node_mask()
         S = self._tap_cov(TRT * self._orient(True, True) * self._tap_mask(), self.nugget_, self.trend_variance_)
         if self.trend_variance_:
-            TK = TK + self.trend_variance_ * (self.TN_ @ self.normals.T)
+            TK = TK + self.trend_variance_ * (self.TN_ @ self.basis.T)
         self.TK_ = TK
         # Round-off can break the factorisation when the taps' covariance is dominated by the constant mean
         # (e.g. readings that are all equal): a jitter growing from 1e-12 of the mean diagonal restores it.
@@ -618,7 +645,7 @@ class SurfaceGP:
             if self.groups is not None:
                 K *= same_region(self.groups, self.groups)
             if self.trend_variance_:
-                K += self.trend_variance_ * (self.normals @ self.normals.T)
+                K += self.trend_variance_ * (self.basis @ self.basis.T)
             self._K = K
         return self._K
 
@@ -634,14 +661,14 @@ class SurfaceGP:
                 pa = self._phi[m].T @ a[m]
                 out[m] = self.mean_variance_ * a[m].sum(axis=0, keepdims=True) + self._phi[m] @ (self._g[:, None] * pa)
         if self.trend_variance_:
-            out = out + self.trend_variance_ * (self.normals @ (self.normals.T @ a))
+            out = out + self.trend_variance_ * (self.basis @ (self.basis.T @ a))
         return out
 
     def _K_diag(self):
         """(n_c,) float: prior variance at the nodes (the orientation factor and the region mask are 1 there)."""
         d = self.mean_variance_ + (np.diag(self._R).copy() if self._R is not None else (self._phi**2) @ self._g)
         if self.trend_variance_:
-            d = d + self.trend_variance_ * (self.normals**2).sum(axis=1)
+            d = d + self.trend_variance_ * (self.basis**2).sum(axis=1)
         return d
 
     # ------------------------------------------------------------ posterior
@@ -690,7 +717,7 @@ class SurfaceGP:
         return self.K_ - self.TK_.T @ sla.cho_solve(self.S_cho_, self.TK_)
 
     def describe(self) -> str:
-        trend = f", normal trend sd {np.sqrt(self.trend_variance_):.3g}" if self.trend_variance_ else ""
+        trend = f", {self.trend_basis} trend sd {np.sqrt(self.trend_variance_):.3g}" if self.trend_variance_ else ""
         regions = "" if self.groups is None else f", {len(np.unique(self.groups))} independent regions"
         if self.orientation and np.isfinite(self.normal_scale_):
             regions = f", orientation scale {self.normal_scale_:.2g} ({self.orientation_form_})" + regions

@@ -373,7 +373,7 @@ def report_numbers(result: UncertaintyResult, figure: str = "CL") -> dict:
 
 def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | None = None, carrier=None,
                         n_patches: int = 2500, field=None, kernel: str = "auto", length_scale=None,
-                        trend: str | None = None, regions=None, orientation: bool = True,
+                        trend: str | None = "newtonian", regions=None, orientation: bool = True,
                         orientation_kernel: str = "matern52", progress=None) -> UncertaintyResult:
     """Kriging estimate and band of every figure.
 
@@ -396,9 +396,12 @@ def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | Non
         kriging ones, with its own measurement uncertainty.
     kernel, length_scale
         Passed to :class:`~meshpress.kriging.SurfaceGP`.
-    trend : {"normal", None}
-        ``"normal"``: the field's mean has a term linear in the surface
-        normal (see :class:`~meshpress.kriging.SurfaceGP`).
+    trend : {"newtonian", "normal", None}
+        The field's mean beyond a constant (:func:`~meshpress.kriging.trend_features`):
+        ``"newtonian"`` (default) Newton's impact pressure on skin facing the
+        flow and a level on rear-facing skin, ``"normal"`` a term linear in
+        the surface normal, ``None`` none; coefficients of fitted prior
+        variance (docs/uncertainty.md measures them).
     regions : str or (m,) array, optional
         Region specification (:func:`meshpress.regions.face_regions`): the
         model treats the regions as independent fields, as the ``+regions``

@@ -12,7 +12,8 @@ and the ratio of the mean 95 % half-width to the RMS error (target: coverage
 band for information.
 
 Run: ``python scripts/bench_uncertainty.py [N] [n_patches] [cases] [kernels] [trend] [regions]`` (default 50,
-2500, hemisphere,wing,car, auto, none, none; trend "normal" adds a mean linear in the surface normal; regions
+2500, hemisphere,wing,car, auto, newtonian, none; trend: the model's mean beyond a constant, "newtonian" (the
+default of ``meshpress uncertainty``), "normal" (linear in the surface normal) or "none"; regions
 is a ``--regions`` specification, e.g. "normal", applied to both the model and the RBF field; a seventh
 argument "on" adds the orientation factor to the model's correlation, and an eighth names its form: se,
 exponential, matern32, matern52 (default, as in ``meshpress uncertainty``) or auto; the output file's name ends in
@@ -97,7 +98,7 @@ def main():
     n_patches = int(sys.argv[2]) if len(sys.argv) > 2 else 2500
     cases = sys.argv[3].split(",") if len(sys.argv) > 3 else ["hemisphere", "wing", "car"]
     kernel = sys.argv[4] if len(sys.argv) > 4 else "auto"
-    trend = (sys.argv[5] if len(sys.argv) > 5 else "none")
+    trend = (sys.argv[5] if len(sys.argv) > 5 else "newtonian")
     trend = None if trend == "none" else trend
     regions = sys.argv[6] if len(sys.argv) > 6 else "none"
     regions = None if regions == "none" else regions

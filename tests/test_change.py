@@ -89,7 +89,7 @@ def test_change_estimate_is_linear_in_the_readings(case):
                           normals=gp.normals, trend_variance=gp.trend_variance_, orientation=gp.orientation,
                           normal_scale=gp.normal_scale_ if gp.orientation else None,
                           orientation_kernel=gp.orientation_form_ or "se",
-                          trend=gp.use_trend).fit(T, y, vb + vo - 2 * cab)
+                          trend=gp.use_trend, trend_basis=gp.trend_basis).fit(T, y, vb + vo - 2 * cab)
         np.testing.assert_allclose(fixed.figures(a)[0], y @ ch.tap_weights, rtol=1e-7, atol=1e-10)
 
 

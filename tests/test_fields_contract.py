@@ -385,3 +385,41 @@ def test_even_car_body_has_no_long_edges():
     m = trimesh.Trimesh(v, f, process=False)
     assert m.is_watertight and m.volume > 0
     assert np.linalg.norm(v[f] - v[np.roll(f, -1, axis=1)], axis=2).max() < 2.5 * mean_edge(m.area, len(f))
+
+
+def test_newtonian_trend_features_follow_sine_squared_law(sphere):
+    # Newton's sine-squared law (Anderson, Hypersonic and High-Temperature Gas Dynamics, 2nd ed. 2006, sec. 3.2):
+    # Cp / Cp_max = sin^2(delta), delta the angle between the oncoming flow and the surface, i.e. cos^2 of the
+    # angle between the inward normal and the flow; zero on the leeward side.  The flow runs along +x.
+    from meshpress.kriging import trend_features
+
+    n = sphere.face_normals
+    F = trend_features(n, "newtonian")
+    cos_stag = -n[:, 0]  # cosine of the angle from the stagnation point at -x
+    np.testing.assert_allclose(F[:, 0], np.where(cos_stag > 0, cos_stag**2, 0.0), atol=1e-12)
+    np.testing.assert_allclose(F[:, 1], np.where(cos_stag < 0, -cos_stag, 0.0), atol=1e-12)
+    with pytest.raises(InputError, match="trend basis"):
+        trend_features(n, "cubic")
+
+
+def test_kriging_newtonian_trend_fills_an_untapped_windward_cap(sphere):
+    # Universal kriging reproduces its trend functions (Cressie, Statistics for Spatial Data, 1993, sec. 3.4):
+    # a field in the span of the trend, Cp = -0.3 + 1.2 cos^2 (windward) - 0.25 |cos| (leeward), is recovered on
+    # a windward cap with no tap in it, where a constant mean reverts towards the taps' average (no clamping to
+    # the tap range here: the cap lies above every reading).
+    from meshpress.kriging import trend_features
+
+    def cp(normals):
+        F = trend_features(normals, "newtonian")
+        return -0.3 + 1.2 * F[:, 0] - 0.25 * F[:, 1]
+
+    pts = fibonacci_sphere(60)
+    pts = pts[pts[:, 0] > -0.8]  # no tap within about 37 degrees of the stagnation point
+    taps = make_taps(sphere, pts, cp(pts))
+    cap = sphere.face_normals[:, 0] < -0.9
+    errs = {}
+    for trend in ("newtonian", None):
+        field = make_field("kriging", trend=trend, extrapolation="none").fit(sphere, taps)
+        errs[trend] = np.abs(np.asarray(field.face_values())[cap] - cp(sphere.face_normals[cap])).max()
+    assert errs["newtonian"] < 0.05
+    assert errs[None] > 0.2

@@ -215,8 +215,10 @@ def test_figure_with_no_tap_near_its_region_gets_a_wide_band():
         fid = rng.choice(np.flatnonzero(ok), 40, replace=False)
         taps = make_taps(body, cen[fid], cp(cen[fid], body.face_normals[fid]))
         out[where] = compute_uncertainty(body, taps, ref_area=2.0)
-    assert out["front"].band("CLR").u > 2 * out["all"].band("CLR").u
-    assert out["front"].band("CLR").u > 1.5 * out["front"].band("CLF").u
+    widen = {f: out["front"].band(f).u / out["all"].band(f).u for f in ("CLF", "CLR")}
+    assert widen["CLR"] > 2
+    # CLF is tied to the rear through the pitching moment, so it widens too, but less.
+    assert widen["CLR"] > 1.2 * widen["CLF"], widen
 
 
 def test_carrier_on_big_body_is_simplified():

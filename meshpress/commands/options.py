@@ -60,6 +60,14 @@ def add_gp_orientation_option(g, default: bool, form: str):
                         "matern32 the taps' marginal likelihood prefers; docs/uncertainty.md)")
 
 
+def add_gp_trend_option(g):
+    """``--trend-gp``: the mean of the kriging model behind the bands."""
+    g.add_argument("--trend-gp", default="newtonian", choices=("newtonian", "normal", "constant"),
+                   help="mean of the kriging model beyond a constant (default newtonian: impact pressure on skin "
+                        "facing the flow, a level on rear-facing skin; normal: linear in the surface normal; "
+                        "docs/uncertainty.md)")
+
+
 def add_field_options(p, method_help=None):
     """Field options; ``method_help`` replaces the help of ``--method`` and makes its default None (so a
     command can tell whether it was given)."""
@@ -80,9 +88,10 @@ def add_field_options(p, method_help=None):
     g.add_argument("--length", type=float, metavar="L",
                    help="geodesic kernel length scale, m (default: chosen by leave-one-out error)")
     g.add_argument("--nugget", type=float, default=1e-6, help="geodesic kernel ridge, relative (default 1e-6)")
-    g.add_argument("--trend", default=None, choices=("constant", "normal", "auto"),
-                   help="mean of the geodesic and kriging fields: constant (default), linear in the surface normal, "
-                        "or (geodesic) chosen by leave-one-out; docs/accuracy.md measures both")
+    g.add_argument("--trend", default=None, choices=("constant", "normal", "newtonian", "auto"),
+                   help="mean of the geodesic and kriging fields: constant (geodesic default), linear in the surface "
+                        "normal, (kriging, its default) newtonian: impact pressure on skin facing the flow and a base "
+                        "level on rear-facing skin, or (geodesic) chosen by leave-one-out; docs/accuracy.md measures them")
     g.add_argument("--orientation", default="off", choices=("on", "off"),
                    help="geodesic field: the kernel also falls with the angle between the surface normals, at a scale "
                         "chosen by leave-one-out with the length (default off; on for wings and thin parts; "
@@ -129,6 +138,8 @@ def method_settings(args, method=None) -> dict:
     if method == "rbf":
         s = {"kernel": args.kernel or "thin_plate_spline", "smoothing": args.smoothing, **common}
     elif method == "geodesic":
+        if args.trend == "newtonian":
+            raise InputError("--trend newtonian is for the kriging method; geodesic takes constant, normal or auto")
         s = {"kernel": args.kernel or "matern52", "length": args.length, "nugget": args.nugget,
              "trend": args.trend or "constant", "orientation": args.orientation == "on", **work, **common}
     elif method in ("biharmonic", "harmonic", "nearest"):
@@ -137,8 +148,9 @@ def method_settings(args, method=None) -> dict:
         s = {"band": args.band, **common}
     elif method == "kriging":
         if args.trend == "auto":
-            raise InputError("--trend auto is for the geodesic method; kriging takes constant or normal")
-        s = {"kernel": args.kernel or "exponential", "trend": "normal" if args.trend == "normal" else None, **common}
+            raise InputError("--trend auto is for the geodesic method; kriging takes constant, normal or newtonian")
+        trend = {None: "newtonian", "constant": None}.get(args.trend, args.trend)
+        s = {"kernel": args.kernel or "exponential", "trend": trend, **common}
     else:
         s = {}
     if args.regions is not None:
