@@ -171,5 +171,3 @@ def test_geodesic_trend_option(tmp_path, sample):
     assert "mean linear in the normal" in r.stdout
     bad = run_cli("loads", *common, "kriging", "--trend", "auto")
     assert bad.returncode == 2 and "--trend auto" in bad.stderr and "Traceback" not in bad.stderr
-    bad = run_cli("loads", *common, "geodesic", "--trend", "newtonian")
-    assert bad.returncode == 2 and "--trend newtonian" in bad.stderr and "Traceback" not in bad.stderr

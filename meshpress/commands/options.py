@@ -138,8 +138,6 @@ def method_settings(args, method=None) -> dict:
     if method == "rbf":
         s = {"kernel": args.kernel or "thin_plate_spline", "smoothing": args.smoothing, **common}
     elif method == "geodesic":
-        if args.trend == "newtonian":
-            raise InputError("--trend newtonian is for the kriging method; geodesic takes constant, normal or auto")
         s = {"kernel": args.kernel or "matern52", "length": args.length, "nugget": args.nugget,
              "trend": args.trend or "constant", "orientation": args.orientation == "on", **work, **common}
     elif method in ("biharmonic", "harmonic", "nearest"):

@@ -41,8 +41,12 @@ Spatial Data, 1993, sec. 3.4): forward, rear, upward and downward faces see
 systematically different pressures (stagnation, base pressure, suction over
 the top), which a constant mean carries into the gaps between taps as the
 average of all of them.  Directions in which the taps' normals hardly vary
-(below ``TREND_NORMAL_SPREAD`` rms) are left out of the trend.  With
-``trend="auto"`` both are candidates beside the length scales and ridges,
+(below ``TREND_NORMAL_SPREAD`` rms) are left out of the trend.  The
+``newtonian`` trend is a constant plus Newton's impact pressure on skin
+facing the flow and a base level on rear-facing skin
+(:func:`meshpress.kriging.trend_features`); a column the taps do not see
+(no tap on the base, say) is left out.  With
+``trend="auto"`` all three are candidates beside the length scales and ridges,
 and the leave-one-out error chooses.  The default is the constant: on the
 car-like benchmark the normal trend took the practical 57-tap layout's CL
 error from +20 % to -6 % but 100 random taps' from -8 % to +30 %, and the
@@ -65,13 +69,13 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import InputError
-from ..kriging import orientation_factor
+from ..kriging import orientation_factor, trend_features
 from .base import Field
 from .bounds import BoundedMixin
 from .kernels import GEODESIC_KERNELS, matern, nested_residuals, solve_with_nested
 from .surface_common import TARGET_FACES, by_point_chunks, check_common, normals_at, prepare, vertex_normals
 
-TRENDS = ("auto", "constant", "normal")
+TRENDS = ("auto", "constant", "normal", "newtonian")
 
 #: Form of the normals' factor (as the kriging bands'), and its finite scales tried beside "none".
 ORIENTATION_FORM = "matern52"
@@ -80,6 +84,16 @@ ORIENTATION_RUNGS = (1.0, 0.6, 0.35)
 #: Smallest rms spread of the taps' unit normals along a direction (about 6 degrees) for the trend to use it:
 #: below it the trend's slope is set by a few taps' small differences in direction and runs away elsewhere.
 TREND_NORMAL_SPREAD = 0.1
+#: Smallest rms spread at the taps of a Newtonian trend column (impact or base) for the trend to use it.
+TREND_NEWTON_SPREAD = 0.05
+
+
+def newtonian_columns(normals):
+    """Indices of the Newtonian trend's columns (:func:`meshpress.kriging.trend_features`) that the taps of
+    unit normals (k, 3) can fit: those whose values at the taps spread by at least ``TREND_NEWTON_SPREAD`` rms
+    (a column no tap sees, e.g. the base with no tap on it, would get an arbitrary coefficient)."""
+    F = trend_features(normals, "newtonian")
+    return [j for j in range(F.shape[1]) if float(np.std(F[:, j])) >= TREND_NEWTON_SPREAD]
 
 
 def normal_trend_basis(normals):
@@ -107,9 +121,11 @@ class GeodesicRBFField(BoundedMixin, Field):
     Parameters
     ----------
     kernel : {"matern32", "matern52", "gaussian"}
-    trend : {"constant", "normal", "auto"}
-        Mean of the field: a constant (default), linear in the unit normal, or
-        the one of lower leave-one-out error.
+    trend : {"constant", "normal", "newtonian", "auto"}
+        Mean of the field: a constant (default), linear in the unit normal,
+        Newtonian (a constant plus the impact and base columns of
+        :func:`meshpress.kriging.trend_features`), or the one of lowest
+        leave-one-out error.
     orientation : bool
         Let leave-one-out also choose a factor of the normals' angle (module
         docstring; default off); ``theta_`` is the chosen scale (``inf``:
@@ -172,7 +188,12 @@ class GeodesicRBFField(BoundedMixin, Field):
             trends["normal"] = np.column_stack([np.ones(k), (tap_normals - centre) @ dirs.T])
         elif self.trend == "normal":
             self.warnings_.append("the taps' normals hardly vary (or there are too few taps): constant trend used")
-        if self.trend != "normal" or not trends:
+        newton = newtonian_columns(tap_normals)
+        if self.trend in ("newtonian", "auto") and len(newton) and k > len(newton) + 1:
+            trends["newtonian"] = np.column_stack([np.ones(k), trend_features(tap_normals, "newtonian")[:, newton]])
+        elif self.trend == "newtonian":
+            self.warnings_.append("no tap faces the flow or the base (or there are too few taps): constant trend used")
+        if self.trend not in ("normal", "newtonian") or not trends:
             trends["constant"] = np.ones((k, 1))
         if self.length is not None:
             lengths = [float(self.length)]
@@ -219,6 +240,7 @@ class GeodesicRBFField(BoundedMixin, Field):
             self.trend_, self.theta_ = best
         self.tap_normals_ = tap_normals
         self.trend_centre_, self.trend_dirs_ = (centre, dirs) if self.trend_ == "normal" else (None, None)
+        self.trend_newton_ = newton if self.trend_ == "newtonian" else None
         self.loo_nested_ = nested_residuals(np.array(loos), np.array(inners)) if len(loos) > 1 else self.loo_.copy()
         self.mean_ = float(self.trend_coef_[0])
         if self.min_eigenvalue_ < 0:
@@ -229,6 +251,8 @@ class GeodesicRBFField(BoundedMixin, Field):
         """(k,) float: the fitted mean at points of unit normals (k, 3)."""
         if self.trend_ == "constant":
             return np.full(len(normals), self.mean_)
+        if self.trend_ == "newtonian":
+            return self.mean_ + trend_features(normals, "newtonian")[:, self.trend_newton_] @ self.trend_coef_[1:]
         return self.mean_ + ((normals - self.trend_centre_) @ self.trend_dirs_.T) @ self.trend_coef_[1:]
 
     def _orient(self, normals):
@@ -268,7 +292,8 @@ class GeodesicRBFField(BoundedMixin, Field):
         return self.loo_nested_.copy()
 
     def describe(self):
-        trend = "" if self.trend_ == "constant" else ", mean linear in the normal"
+        trend = {"constant": "", "normal": ", mean linear in the normal",
+                 "newtonian": ", Newtonian mean (impact and base)"}[self.trend_]
         orient = f", orientation scale {self.theta_:.2g}" if np.isfinite(self.theta_) else ""
         return (f"geodesic RBF ({self.kernel}, length {self.length_:.3g} m, ridge {self.ridge_:.1e}{trend}"
                 f"{orient})")
