@@ -175,7 +175,11 @@ def main():
     rep = coverage(n, n_patches, np.random.default_rng(2027))
     rep["load_average_end"] = os.getloadavg()[0]
     rep["wall_s"] = time.perf_counter() - t0
-    out = HERE / f"bench_change_{n}_{n_patches}.json"
+    import inspect
+
+    trend = inspect.signature(compute_change).parameters["trend"].default  # the model's default mean, in the name
+    rep["trend"] = trend
+    out = HERE / f"bench_change_{n}_{n_patches}{'_trend-' + trend if trend else ''}.json"
     out.write_text(json.dumps(rep, indent=1))
     print(f"\nwrote {out} ({rep['wall_s']:.0f} s)")
 
