@@ -150,7 +150,7 @@ def greedy_plan(cov, a, n_add, *, candidates, blocked_from=(), distance=None, mi
 def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrier=None, n_patches=2500,
               q=None, ref_area=None, boxes=(), excluded_faces=None, min_spacing=0.05, length_scale=None,
               kernel="exponential", regions=None, orientation: bool = True, orientation_kernel: str = "matern52",
-              progress=None) -> Plan:
+              trend: str | None = "newtonian", progress=None) -> Plan:
     """Propose ``n_add`` tap positions that cut the chosen figures' uncertainty most.
 
     Parameters
@@ -184,6 +184,10 @@ def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrie
         Its form (:func:`~meshpress.kriging.orientation_factor`); default
         ``matern52``, as in the bands, so the plan's "u after" is the bands'
         model (docs/uncertainty.md measures ``se`` too).
+    trend : {"newtonian", "normal", None}
+        The model's mean beyond a constant, as in the bands
+        (:func:`~meshpress.uncertainty.compute_uncertainty`; needs three taps
+        to fit it).
 
     Returns
     -------
@@ -213,7 +217,7 @@ def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrie
     a = carrier.fine_weights(G, B)
     n_taps = 0 if taps is None else len(taps)
     if n_taps >= 3:
-        gp = SurfaceGP.on_carrier(carrier, kernel=kernel, length_scale=length_scale, groups=groups,
+        gp = SurfaceGP.on_carrier(carrier, kernel=kernel, length_scale=length_scale, groups=groups, trend=trend,
                                   orientation=orientation, orientation_kernel=orientation_kernel)
         gp.fit(carrier.points_matrix(taps.points), taps.values)
         cov = gp.posterior_cov()

@@ -38,6 +38,8 @@ FIGS = ("CL", "CLF", "CLR")
 EST_FORM = inspect.signature(compute_uncertainty).parameters["orientation_kernel"].default
 #: The estimate's trend: compute_uncertainty's default (recorded in the output's name and content).
 EST_TREND = inspect.signature(compute_uncertainty).parameters["trend"].default
+#: The planner's trend: plan_taps's default (recorded in the output's name and content).
+PLAN_TREND = inspect.signature(plan_taps).parameters["trend"].default
 
 
 def main():
@@ -81,7 +83,7 @@ def main():
         print(f"case {c + 1}/{n_cases}: " + "  ".join(
             f"{k} " + ",".join(f"{res[k][f][-1]:.3f}" for f in FIGS) for k in res), flush=True)
     out = {"n_cases": n_cases, "planner_orientation": orient, "planner_form": form,
-           "estimate_form": EST_FORM, "estimate_trend": EST_TREND, "n_random": n_random, "median_plan_s": float(np.median(t_plan)), "truth": {f: truth[f] for f in FIGS}}
+           "estimate_form": EST_FORM, "estimate_trend": EST_TREND, "planner_trend": PLAN_TREND, "n_random": n_random, "median_plan_s": float(np.median(t_plan)), "truth": {f: truth[f] for f in FIGS}}
     for k in res:
         out[k] = {f: {"mean_abs_err": float(np.mean(res[k][f])), "mean_u": float(np.mean(res_u[k][f])),
                       "rbf_mean_abs_err": float(np.mean(res_rbf[k][f]))} for f in FIGS}
@@ -92,7 +94,7 @@ def main():
               f"+20 random {r:.4f}  planned/random {p / r:.2f}")
     tag = (("_orientation" if orient else "") + (f"-{form}" if orient and form != "se" else "")
            + (f"_r{n_random}" if n_random > 1 else "") + (f"_estimate-{EST_FORM}" if EST_FORM != "se" else "")
-           + (f"-{EST_TREND}" if EST_TREND else ""))
+           + (f"-{EST_TREND}" if EST_TREND else "") + (f"_planner-{PLAN_TREND}" if PLAN_TREND else ""))
     (Path(__file__).resolve().parent / f"bench_planning_{n_cases}{tag}.json").write_text(json.dumps(out, indent=1))
 
 

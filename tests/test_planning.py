@@ -33,13 +33,14 @@ def test_variance_shrinks_when_taps_are_added_at_the_planned_points(sphere, orie
     # figure is what the planner expected (posterior variance does not depend on the readings).
     car = plan.carrier
     spec = car.spectrum()
-    form = "matern52"  # plan_taps' default form of the orientation factor
-    gp0 = SurfaceGP.on_carrier(car, kernel="auto", orientation=orientation,
-                               orientation_kernel=form).fit(car.points_matrix(taps.points), taps.values)
+    form = "matern52"  # plan_taps' default form of the orientation factor (and its default trend below)
+    gp0 = SurfaceGP.on_carrier(car, kernel="auto", orientation=orientation, orientation_kernel=form,
+                               trend="newtonian").fit(car.points_matrix(taps.points), taps.values)
     both = make_taps(sphere, np.vstack([taps.points, plan.points]))
     gp1 = SurfaceGP(car.distance, kernel=gp0.kernel_, spectrum=spec, length_scale=gp0.length_scale_,
                     variance=gp0.variance_, nugget=gp0.nugget_, mean_variance=gp0.mean_variance_,
-                    normals=car.normals if orientation else None, orientation=orientation,
+                    normals=car.normals, orientation=orientation, trend=True, trend_basis="newtonian",
+                    trend_variance=gp0.trend_variance_,
                     normal_scale=gp0.normal_scale_ if orientation else None, orientation_kernel=form)
     gp1.fit(plan.carrier.points_matrix(both.points), both.values)
     _, var1, _ = gp1.figures(plan.figure_weights)

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from .options import (add_body_options, add_flow_options, add_gp_kernel_option, add_gp_orientation_option,
-                      load_inputs, speed_mps)
+                      add_gp_trend_option, load_inputs, speed_mps)
 
 PLAN_FIGURES = ("CL", "CD", "CS", "CLF", "CLR", "CPM")
 
@@ -35,6 +35,7 @@ def add_parser(sub):
                         "'edges[:ANGLE]', planes, boxes or a face label file)")
     add_gp_kernel_option(p, "exponential", "see meshpress uncertainty --help and docs/uncertainty.md")
     add_gp_orientation_option(p, True, form="matern52")
+    add_gp_trend_option(p)
     p.add_argument("--out", default="planned_taps.csv", help="CSV of the new taps, mesh coordinates and unit "
                                                              "(default planned_taps.csv)")
     p.add_argument("--picture", metavar="PNG", help="write a picture of the plan")
@@ -114,7 +115,7 @@ def run(args) -> int:
                      min_spacing=spacing, length_scale=ell, q=resolve_q(args.q, speed_mps(args.speed), args.air_density),
                      ref_area=args.ref_area, kernel=args.kernel_gp, regions=args.regions,
                      orientation=args.orientation_gp == "on", orientation_kernel=args.orientation_kernel,
-                     progress=progress)
+                     trend=None if args.trend_gp == "constant" else args.trend_gp, progress=progress)
     pts = body.frame.to_mesh(plan.points) if body.frame else plan.points
     existing = set(taps.names) if taps is not None else set()
     names, k = [], 1
