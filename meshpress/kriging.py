@@ -217,9 +217,9 @@ class SurfaceGP:
         ``(10 * (|mean y| + std y))^2``.
     normals : (n_c, 3) float, optional
         Unit normals at the nodes, for the orientation factor and (see
-        ``trend``) a linear trend ``beta . n`` with
-        ``beta ~ N(0, t^2 I)`` and ``t`` fitted by maximum likelihood
-        (universal kriging on the normal; ``trend_variance_``).
+        ``trend``) a trend ``beta . h(n)`` with ``h`` the columns of
+        ``trend_basis``, ``beta ~ N(0, t^2 I)`` and ``t`` fitted by maximum
+        likelihood (universal kriging in its Bayesian form; ``trend_variance_``).
     trend_variance : float, optional
         Fix ``t^2`` (value unit^2) instead of fitting it.
     groups : (n_c,) int, optional
@@ -237,6 +237,10 @@ class SurfaceGP:
         default to ``matern52``; this class to ``se``.)
     trend : bool, optional
         Use ``normals`` for the trend; default: yes unless ``orientation``.
+    trend_basis : {"normal", "newtonian"}
+        The trend's columns as functions of the normals
+        (:func:`trend_features`): the normal itself, or Newton's impact
+        pressure on forward-facing skin and a base level on rear-facing skin.
 
     Attributes (after fit)
     ----------------------
