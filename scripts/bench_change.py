@@ -28,6 +28,7 @@ Run: ``python scripts/bench_change.py [N] [n_patches]`` (default 25, 2500).
 
 from __future__ import annotations
 
+import inspect
 import json
 import os
 import sys
@@ -175,8 +176,6 @@ def main():
     rep = coverage(n, n_patches, np.random.default_rng(2027))
     rep["load_average_end"] = os.getloadavg()[0]
     rep["wall_s"] = time.perf_counter() - t0
-    import inspect
-
     trend = inspect.signature(compute_change).parameters["trend"].default  # the model's default mean, in the name
     rep["trend"] = trend
     out = HERE / f"bench_change_{n}_{n_patches}{'_trend-' + trend if trend else ''}.json"

@@ -68,6 +68,11 @@ def add_gp_trend_option(g):
                         "docs/uncertainty.md)")
 
 
+def gp_trend(args):
+    """The ``trend`` argument of the kriging model from ``--trend-gp`` (``constant``: None)."""
+    return None if args.trend_gp == "constant" else args.trend_gp
+
+
 def add_field_options(p, method_help=None):
     """Field options; ``method_help`` replaces the help of ``--method`` and makes its default None (so a
     command can tell whether it was given)."""

@@ -10,7 +10,8 @@ change, in which the errors the two runs share cancel (meshpress.change).
 from __future__ import annotations
 
 from .options import (add_body_options, add_field_options, add_flow_options, add_gp_kernel_option,
-                      add_gp_orientation_option, add_gp_trend_option, load_inputs, method_settings, speed_mps)
+                      add_gp_orientation_option, add_gp_trend_option, gp_trend, load_inputs, method_settings,
+                      speed_mps)
 
 U_COLUMNS = ("u", "p_u", "cp_u", "sem", "p_sem", "cp_sem")
 #: Field methods whose spread ``--spread`` shows by default (harmonic is a cross-check only, strip a baseline).
@@ -205,7 +206,7 @@ def run(args) -> int:
     meas = Measurement.build(len(taps), tap_u=tap_u, sensor=sensor, u_p_ref=args.u_p_ref, u_q_rel=u_q_rel)
     gp_kw = dict(q=q, ref_area=loads.ref_area_m2, carrier=carrier, kernel=args.kernel_gp, regions=args.regions,
                  orientation=args.orientation_gp == "on", orientation_kernel=args.orientation_kernel,
-                 trend=None if args.trend_gp == "constant" else args.trend_gp, progress=progress)
+                 trend=gp_trend(args), progress=progress)
     with progress.step("kriging bands"):
         unc = compute_uncertainty(body, taps, meas=meas, field=field, **gp_kw)
     change = None

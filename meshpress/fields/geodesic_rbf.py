@@ -88,12 +88,11 @@ TREND_NORMAL_SPREAD = 0.1
 TREND_NEWTON_SPREAD = 0.05
 
 
-def newtonian_columns(normals):
-    """Indices of the Newtonian trend's columns (:func:`meshpress.kriging.trend_features`) that the taps of
-    unit normals (k, 3) can fit: those whose values at the taps spread by at least ``TREND_NEWTON_SPREAD`` rms
+def newtonian_columns(features):
+    """Indices of the Newtonian trend's columns that the taps can fit, from their values at the taps (k, 2)
+    (:func:`meshpress.kriging.trend_features`): those that spread by at least ``TREND_NEWTON_SPREAD`` rms
     (a column no tap sees, e.g. the base with no tap on it, would get an arbitrary coefficient)."""
-    F = trend_features(normals, "newtonian")
-    return [j for j in range(F.shape[1]) if float(np.std(F[:, j])) >= TREND_NEWTON_SPREAD]
+    return [j for j in range(features.shape[1]) if float(np.std(features[:, j])) >= TREND_NEWTON_SPREAD]
 
 
 def normal_trend_basis(normals):
@@ -188,9 +187,10 @@ class GeodesicRBFField(BoundedMixin, Field):
             trends["normal"] = np.column_stack([np.ones(k), (tap_normals - centre) @ dirs.T])
         elif self.trend == "normal":
             self.warnings_.append("the taps' normals hardly vary (or there are too few taps): constant trend used")
-        newton = newtonian_columns(tap_normals)
+        newton_f = trend_features(tap_normals, "newtonian")
+        newton = newtonian_columns(newton_f)
         if self.trend in ("newtonian", "auto") and len(newton) and k > len(newton) + 1:
-            trends["newtonian"] = np.column_stack([np.ones(k), trend_features(tap_normals, "newtonian")[:, newton]])
+            trends["newtonian"] = np.column_stack([np.ones(k), newton_f[:, newton]])
         elif self.trend == "newtonian":
             self.warnings_.append("no tap faces the flow or the base (or there are too few taps): constant trend used")
         if self.trend not in ("normal", "newtonian") or not trends:
