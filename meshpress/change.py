@@ -210,8 +210,8 @@ def compute_change(body, taps, y_base, y_other, *, err_base: ErrorSources, err_o
                    correlation: float = 1.0, q=None, ref_area, carrier=None, n_patches: int = 2500,
                    kernel: str = "auto", base_result=None, other_result=None, field_change=None,
                    base_label="base", other_label="other", regions=None, trend: str | None = "newtonian",
-                   orientation: bool = True,
-                   orientation_kernel: str = "matern52", progress=None) -> ChangeResult:
+                   orientation: bool = True, orientation_kernel: str = "matern52", stagnation_prior: bool = True,
+                   progress=None) -> ChangeResult:
     """Kriging estimate and band of every figure's change ``other - base`` on shared taps.
 
     Parameters
@@ -244,6 +244,9 @@ def compute_change(body, taps, y_base, y_other, *, err_base: ErrorSources, err_o
         The model's mean (:func:`~meshpress.uncertainty.compute_uncertainty`).
     orientation, orientation_kernel
         The normals' factor in the model's correlation and its form (as there).
+    stagnation_prior : bool
+        For each configuration's own bands (as there); the change itself is
+        modelled with a prior mean of 0.
 
     Returns
     -------
@@ -260,17 +263,20 @@ def compute_change(body, taps, y_base, y_other, *, err_base: ErrorSources, err_o
     if carrier is None:
         carrier = Carrier(body, n_patches, progress=progress)
     kw = dict(q=q, ref_area=ref_area, carrier=carrier, kernel=kernel, regions=regions, trend=trend,
-              orientation=orientation,
-              orientation_kernel=orientation_kernel, progress=progress)
+              orientation=orientation, orientation_kernel=orientation_kernel, progress=progress)
     if base_result is None:
-        base_result = compute_uncertainty(body, taps.with_values(y_base), meas=err_base.measurement(), **kw)
+        base_result = compute_uncertainty(body, taps.with_values(y_base), meas=err_base.measurement(),
+                                          stagnation_prior=stagnation_prior, **kw)
     if other_result is None:
-        other_result = compute_uncertainty(body, taps.with_values(y_other), meas=err_other.measurement(), **kw)
+        other_result = compute_uncertainty(body, taps.with_values(y_other), meas=err_other.measurement(),
+                                           stagnation_prior=stagnation_prior, **kw)
     vb, vo, cab = tap_covariances(err_base, err_other, rho)
     nv = np.maximum(vb + vo - 2.0 * cab, 0.0)  # variance of each tap's measured difference
     u_ref2 = max(err_base.u_p_ref**2 + err_other.u_p_ref**2 - 2 * rho * err_base.u_p_ref * err_other.u_p_ref, 0.0)
+    # A change has no stagnation pressure of its own: its prior mean stays 0.
     dres = compute_uncertainty(body, taps.with_values(y_other - y_base),
-                               meas=Measurement(np.sqrt(nv), float(np.sqrt(u_ref2)), 0.0), **kw)
+                               meas=Measurement(np.sqrt(nv), float(np.sqrt(u_ref2)), 0.0), stagnation_prior=False,
+                               **kw)
     W, G = dres.tap_weights, dres.face_weights
     closure = G.sum(axis=0)
     fchange = None if field_change is None else np.asarray(field_change, float) @ G

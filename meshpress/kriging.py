@@ -120,6 +120,35 @@ def trend_features(normals, basis="normal"):
     raise InputError(f"trend basis must be one of {', '.join(TRENDS)}, got {basis!r}")
 
 
+def impact_prior(basis, stagnation):
+    """Prior mean of the trend's coefficients: Newton's impact term at full stagnation pressure.
+
+    Parameters
+    ----------
+    basis : {"newtonian", "normal"}
+        The trend basis (:func:`trend_features`).
+    stagnation : float
+        Stagnation pressure in the taps' unit: Cp = 1 in incompressible flow
+        (Bernoulli, with Cp referred to the free stream's static and dynamic
+        pressure), or q in Pa.
+
+    Returns
+    -------
+    (p,) float or None
+        ``(stagnation, 0)`` for the Newtonian basis (the impact column at the
+        modified-Newtonian maximum, Lees 1955; no prior level on the base);
+        None for other bases, which have no such law.
+    """
+    if basis != "newtonian" or stagnation is None:
+        return None
+    return np.array([float(stagnation), 0.0])
+
+
+def stagnation_value(kind, q=None):
+    """Stagnation pressure in the taps' unit: 1 for Cp, ``q`` for Pa (None when ``q`` is not known)."""
+    return 1.0 if kind == "cp" else (None if q is None else float(q))
+
+
 def orientation_factor(c1, theta, form="se"):
     """The normals' factor and its derivative in ``log theta``.
 
@@ -241,6 +270,11 @@ class SurfaceGP:
         The trend's columns as functions of the normals
         (:func:`trend_features`): the normal itself, or Newton's impact
         pressure on forward-facing skin and a base level on rear-facing skin.
+    trend_mean : (p,) float, optional
+        Prior mean of the trend's coefficients ``beta`` (value unit), default
+        0: ``beta ~ N(trend_mean, t^2 I)``.  The model's prior mean is then
+        ``h(n) . trend_mean`` and the taps are fitted as departures from it
+        (e.g. :func:`impact_prior`).
 
     Attributes (after fit)
     ----------------------
@@ -266,7 +300,8 @@ class SurfaceGP:
 
     def __init__(self, distance, *, kernel: str = "exponential", spectrum=None, length_scale=None, variance=None,
                  nugget=None, mean_variance=None, normals=None, trend_variance=None, groups=None,
-                 orientation=False, normal_scale=None, trend=None, orientation_kernel="se", trend_basis="normal"):
+                 orientation=False, normal_scale=None, trend=None, orientation_kernel="se", trend_basis="normal",
+                 trend_mean=None):
         self.distance = np.asarray(distance, float)
         self.orientation = bool(orientation)
         self.normal_scale = normal_scale
@@ -298,6 +333,9 @@ class SurfaceGP:
         self.normals = None if normals is None else np.asarray(normals, float)
         self.basis = None if normals is None else trend_features(self.normals, trend_basis)
         self.trend_variance = trend_variance
+        self.trend_mean = None if trend_mean is None else np.asarray(trend_mean, float).ravel()
+        if self.trend_mean is not None and self.basis is not None and len(self.trend_mean) != self.basis.shape[1]:
+            raise InputError(f"{len(self.trend_mean)} trend means for {self.basis.shape[1]} trend columns")
         self.mean_variance = mean_variance
 
     @classmethod
@@ -357,15 +395,20 @@ class SurfaceGP:
             T = _snap_to_groups(T, self.groups)
             self.tap_groups_ = self.groups[np.asarray(T.argmax(axis=1)).ravel()]
         nv = np.zeros(n) if noise_var is None else np.broadcast_to(np.asarray(noise_var, float), (n,)).copy()
+        # Trend on the surface normal (universal kriging, Cressie 1993 sec. 3.4; R&W sec. 2.7): forward-, rear-,
+        # up- and down-facing skin see systematically different pressure (stagnation on the nose, base pressure,
+        # suction over the top), which a stationary residual cannot carry into places no tap sees.
+        self.TN_ = None if not self.use_trend else np.asarray(T @ self.basis)  # (n, p)
+        # A prior mean h(n) . m of the trend: the taps are fitted as departures from it (prior_nodes_ at the nodes).
+        self.prior_nodes_ = None
+        if self.TN_ is not None and self.trend_mean is not None and np.any(self.trend_mean):
+            self.prior_nodes_ = self.basis @ self.trend_mean
+            y = y - self.TN_ @ self.trend_mean
         self.T_, self.y_, self.noise_var_ = T, y, nv
         self.cols_ = np.unique(T.indices)
         scale = float(np.std(y)) if n > 1 and np.std(y) > 0 else max(abs(float(np.mean(y))), 1.0)
         self.mean_variance_ = (self.mean_variance if self.mean_variance is not None
                                else (10.0 * (abs(float(np.mean(y))) + scale)) ** 2)
-        # Trend on the surface normal (universal kriging, Cressie 1993 sec. 3.4; R&W sec. 2.7): forward-, rear-,
-        # up- and down-facing skin see systematically different pressure (stagnation on the nose, base pressure,
-        # suction over the top), which a stationary residual cannot carry into places no tap sees.
-        self.TN_ = None if not self.use_trend else np.asarray(T @ self.basis)  # (n, p)
         if self.orientation:
             nt = np.asarray(T @ self.normals)
             self.tap_normals_ = nt / np.maximum(np.linalg.norm(nt, axis=1, keepdims=True), 1e-12)
@@ -694,7 +737,8 @@ class SurfaceGP:
         var : (k,) float
             Posterior variance (includes the tap noise and the nugget).
         weights : (n, k) float
-            Kriging weights: ``mean = weights^T y``.
+            Kriging weights: ``mean = weights^T y`` (plus, with a ``trend_mean``,
+            the constant ``a^T m - weights^T T m`` of the prior mean ``m``).
         """
         self._check()
         a = np.asarray(a, float).reshape(self.distance.shape[0], -1)
@@ -702,12 +746,16 @@ class SurfaceGP:
         w = sla.cho_solve(self.S_cho_, c)
         prior = np.einsum("ik,ik->k", a, self._K_dot(a))
         var = np.maximum(prior - np.einsum("ik,ik->k", c, w), 0.0)
-        return w.T @ self.y_, var, w
+        mean = w.T @ self.y_
+        if self.prior_nodes_ is not None:
+            mean = mean + a.T @ self.prior_nodes_
+        return mean, var, w
 
     def node_mean(self) -> np.ndarray:
         """(n_c,) float: posterior mean at the nodes."""
         self._check()
-        return self.TK_.T @ sla.cho_solve(self.S_cho_, self.y_)
+        m = self.TK_.T @ sla.cho_solve(self.S_cho_, self.y_)
+        return m if self.prior_nodes_ is None else m + self.prior_nodes_
 
     def node_var(self) -> np.ndarray:
         """(n_c,) float: posterior variance at the nodes."""
@@ -722,6 +770,8 @@ class SurfaceGP:
 
     def describe(self) -> str:
         trend = f", {self.trend_basis} trend sd {np.sqrt(self.trend_variance_):.3g}" if self.trend_variance_ else ""
+        if trend and self.prior_nodes_ is not None:
+            trend += f" about a stagnation level of {self.trend_mean[0]:.3g}"
         regions = "" if self.groups is None else f", {len(np.unique(self.groups))} independent regions"
         if self.orientation and np.isfinite(self.normal_scale_):
             regions = f", orientation scale {self.normal_scale_:.2g} ({self.orientation_form_})" + regions

@@ -150,7 +150,7 @@ def greedy_plan(cov, a, n_add, *, candidates, blocked_from=(), distance=None, mi
 def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrier=None, n_patches=2500,
               q=None, ref_area=None, boxes=(), excluded_faces=None, min_spacing=0.05, length_scale=None,
               kernel="exponential", regions=None, orientation: bool = True, orientation_kernel: str = "matern52",
-              trend: str | None = "newtonian", progress=None) -> Plan:
+              trend: str | None = "newtonian", stagnation_prior: bool = True, progress=None) -> Plan:
     """Propose ``n_add`` tap positions that cut the chosen figures' uncertainty most.
 
     Parameters
@@ -188,12 +188,15 @@ def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrie
         The model's mean beyond a constant, as in the bands
         (:func:`~meshpress.uncertainty.compute_uncertainty`; needs three taps
         to fit it).
+    stagnation_prior : bool
+        Centre the Newtonian impact term on full stagnation pressure, as in
+        the bands (:func:`~meshpress.uncertainty.compute_uncertainty`).
 
     Returns
     -------
     Plan
     """
-    from .kriging import SurfaceGP
+    from .kriging import SurfaceGP, impact_prior, stagnation_value
     from .patches import Carrier
     from .projection import nearest_on_faces
     from .uncertainty import figure_face_weights
@@ -218,7 +221,8 @@ def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrie
     n_taps = 0 if taps is None else len(taps)
     if n_taps >= 3:
         gp = SurfaceGP.on_carrier(carrier, kernel=kernel, length_scale=length_scale, groups=groups, trend=trend,
-                                  orientation=orientation, orientation_kernel=orientation_kernel)
+                                  orientation=orientation, orientation_kernel=orientation_kernel,
+                                  trend_mean=impact_prior(trend, stagnation_value(kind, q) if stagnation_prior else None))
         gp.fit(carrier.points_matrix(taps.points), taps.values)
         cov = gp.posterior_cov()
         noise = gp.nugget_

@@ -17,7 +17,8 @@ default of ``meshpress uncertainty``), "normal" (linear in the surface normal) o
 is a ``--regions`` specification, e.g. "normal", applied to both the model and the RBF field; a seventh
 argument "on" adds the orientation factor to the model's correlation, and an eighth names its form: se,
 exponential, matern32, matern52 (default, as in ``meshpress uncertainty``) or auto; the output file's name ends in
-``_orientation`` for se and ``_orientation-FORM`` for the others).
+``_orientation`` for se and ``_orientation-FORM`` for the others; a ninth, "on" (default) or "off", centres the
+Newtonian impact term on full stagnation pressure (``stagnation_prior``), adding ``_stagnation`` to the name).
 """
 
 from __future__ import annotations
@@ -42,7 +43,7 @@ N_TAPS = {"hemisphere": 36, "wing": 48, "car": 57}
 
 
 def run_case(case, n_layouts, n_patches, rng, kernel="auto", trend=None, regions=None, orientation=False,
-             orientation_kernel="se"):
+             orientation_kernel="se", stagnation=True):
     body, cp, area = getattr(tc, case)()
     area = area or body.frontal_area()
     t0 = time.perf_counter()
@@ -66,7 +67,7 @@ def run_case(case, n_layouts, n_patches, rng, kernel="auto", trend=None, regions
             t = time.perf_counter()
             r = compute_uncertainty(body, taps, ref_area=area, meas=meas, carrier=car, field=rbf, kernel=kernel,
                                     trend=trend, regions=regions, orientation=orientation,
-                                    orientation_kernel=orientation_kernel)
+                                    orientation_kernel=orientation_kernel, stagnation_prior=stagnation)
             chosen[r.gp.kernel_] = chosen.get(r.gp.kernel_, 0) + 1
             times.append(time.perf_counter() - t)
             for f in FIGS:
@@ -104,10 +105,12 @@ def main():
     regions = None if regions == "none" else regions
     orientation = (sys.argv[7] if len(sys.argv) > 7 else "off") == "on"
     okernel = sys.argv[8] if len(sys.argv) > 8 else "matern52"
+    stagnation = (sys.argv[9] if len(sys.argv) > 9 else "on") == "on"
     rng = np.random.default_rng(2026)
     report = {}
     for case in cases:
-        rows, tc_s, t_med, truth, chosen = run_case(case, n, n_patches, rng, kernel, trend, regions, orientation, okernel)
+        rows, tc_s, t_med, truth, chosen = run_case(case, n, n_patches, rng, kernel, trend, regions, orientation, okernel,
+                                                   stagnation)
         report[case] = dict(kriging=summarise(rows), rbf_with_kriging_band=summarise(rows, "rbf_err"),
                             carrier_s=tc_s, median_band_s=t_med, truth={k: float(v) for k, v in truth.items()},
                             kernels_chosen=chosen)
@@ -119,7 +122,8 @@ def main():
                 print(f"    {k:<16} coverage {v['coverage']:.2f}  rms err {v['rms_err']:.4f}  rms u {v['rms_u']:.4f}"
                       f"  1.96u/rms err {v['halfwidth_over_rms_err']:.2f}  (n={v['n']})")
     tag = (("" if regions is None else "_regions-" + regions.replace(";", "+")) + ("_orientation" if orientation else "")
-           + ("" if okernel == "se" or not orientation else "-" + okernel))
+           + ("" if okernel == "se" or not orientation else "-" + okernel)
+           + ("_stagnation" if stagnation and trend == "newtonian" else ""))
     out = (Path(__file__).resolve().parent
            / f"bench_uncertainty_{n}_{n_patches}_{'-'.join(cases)}_{kernel.replace(',', '+')}_{trend}{tag}.json")
     out.write_text(json.dumps(report, indent=1))

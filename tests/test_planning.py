@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 
 from meshpress.body import Axles, Body
-from meshpress.kriging import SurfaceGP
+from meshpress.kriging import SurfaceGP, impact_prior
 from meshpress.patches import Carrier
 from meshpress.planning import allowed_nodes, greedy_plan, plan_taps
 from meshpress.uncertainty import figure_face_weights
@@ -35,7 +35,8 @@ def test_variance_shrinks_when_taps_are_added_at_the_planned_points(sphere, orie
     spec = car.spectrum()
     form = "matern52"  # plan_taps' default form of the orientation factor (and its default trend below)
     gp0 = SurfaceGP.on_carrier(car, kernel="auto", orientation=orientation, orientation_kernel=form,
-                               trend="newtonian").fit(car.points_matrix(taps.points), taps.values)
+                               trend="newtonian", trend_mean=impact_prior("newtonian", 1.0))
+    gp0.fit(car.points_matrix(taps.points), taps.values)
     both = make_taps(sphere, np.vstack([taps.points, plan.points]))
     gp1 = SurfaceGP(car.distance, kernel=gp0.kernel_, spectrum=spec, length_scale=gp0.length_scale_,
                     variance=gp0.variance_, nugget=gp0.nugget_, mean_variance=gp0.mean_variance_,

@@ -448,13 +448,15 @@ def test_sheet_uncertainty_mistakes(tmp_path, capsys):
 def test_invented_example_change_band_is_narrower_than_a_configurations():
     # What the same 57 taps miss of the (invented) field is common to both configurations: the change's band
     # must come out well below either configuration's own (docs/uncertainty.md measures how far, and where the
-    # change's band is too narrow).
+    # change's band is too narrow).  CD's own band is mostly the nose, which the stagnation prior already pins
+    # down in each configuration (0.099 -> 0.061 with it), so less is left to cancel there: CD's change band is
+    # half its own (0.53), the lift figures' under a third.
     root = Path(__file__).resolve().parent.parent
     res = process_sheet(read_sheet(root / "examples" / "sports_car_wing" / "test.toml"), bands=True)
     ch = res.changes[0]
-    for k in ("CL", "CLF", "CLR", "CD"):
+    for k, most in (("CL", 0.5), ("CLF", 0.5), ("CLR", 0.5), ("CD", 0.75)):
         own = min(c.bands.band(k).u for c in res.configurations.values())
-        assert ch.band(k).u < 0.5 * own, k
+        assert ch.band(k).u < most * own, k
     # The example's logs (scripts/make_example.py) have a tap noise of 3 Pa at 10 Hz, about 600 samples per
     # window and q of 533-813 Pa: each run's standard error of the mean Cp is of order 3 / q / sqrt(600), about
     # 1.7e-4 to 2.6e-4, and the mean of two runs about 1.6e-4 before the zeros' standard errors are added.

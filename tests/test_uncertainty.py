@@ -6,6 +6,7 @@ import numpy as np
 import pytest
 
 from meshpress.body import Axles, Body
+from meshpress.errors import InputError
 from meshpress.fields import make_field
 from meshpress.kriging import SurfaceGP
 from meshpress.patches import Carrier
@@ -251,6 +252,12 @@ def test_cli_uncertainty_runs_and_rejects_bad_accuracy(cli, samples_dir, tmp_pat
     u = d["uncertainty"]
     assert u["CL_lo95"] < u["CL"] < u["CL_hi95"]
     assert u["uncertainty_budget"]["CL"]["measurement_u"] > 0
+    # Readings in Pa with the speed given: the impact term is centred on q unless told not to.
+    assert "about a stagnation level of" in u["uncertainty_model"]
+    out2 = tmp_path / "u_off.json"
+    r = cli("uncertainty", *base, "--stagnation-prior", "off", "--json", out2)
+    assert r.returncode == 0, r.stderr
+    assert "stagnation" not in json.loads(out2.read_text())["uncertainty"]["uncertainty_model"]
 
 
 def test_regions_make_independent_gps_like_scikit_learn_per_segment():
@@ -454,6 +461,70 @@ def test_normal_trend_matches_scikit_learn_kernels_on_a_line():
     var = np.diag(K) - np.einsum("ij,ji->i", K[:, idx], np.linalg.solve(S, K[idx, :]))
     np.testing.assert_allclose(gp.node_mean(), mu, atol=1e-8)
     np.testing.assert_allclose(gp.node_var(), var, atol=1e-8)
+
+
+def test_stagnation_prior_matches_a_gp_with_a_trend_of_known_prior_mean_on_a_line():
+    # A trend h(x) . beta with beta ~ N(b, B) is a GP of mean h . b and covariance k + h' B h (Rasmussen and
+    # Williams 2006, sec. 2.7, eqs. 2.39-2.41): reference Gram matrices from scikit-learn's Matern (position) and
+    # DotProduct (sigma_0 = 0) on the Newtonian features, b = (1, 0) (impact term at full stagnation, Cp = 1).
+    from sklearn.gaussian_process.kernels import DotProduct, Matern
+
+    from meshpress.kriging import impact_prior, trend_features
+
+    x = np.linspace(0.0, 2.0, 61)
+    d = np.abs(x[:, None] - x[None, :])
+    phi = np.pi * x / 2.0  # the normal turns from facing the flow (-x) to facing downstream
+    nrm = np.column_stack([-np.cos(phi), np.zeros_like(x), np.sin(phi)])
+    H = trend_features(nrm, "newtonian")
+    idx = np.array([30, 36, 41, 47, 52, 58])  # none on the forward-facing first half
+    y = 0.2 - 0.4 * np.sin(phi[idx]) + 0.05 * x[idx]
+    T = np.zeros((len(idx), len(x)))
+    T[np.arange(len(idx)), idx] = 1.0
+    b = impact_prior("newtonian", 1.0)
+    gp = SurfaceGP(d, kernel="exponential", length_scale=0.5, variance=0.2, nugget=1e-3, mean_variance=4.0,
+                   normals=nrm, trend_variance=0.3, trend_basis="newtonian", trend=True, trend_mean=b).fit(T, y)
+    K = 4.0 + 0.2 * Matern(0.5, nu=0.5)(x[:, None]) + 0.3 * DotProduct(sigma_0=0.0, sigma_0_bounds="fixed")(H)
+    S = K[np.ix_(idx, idx)] + 1e-3 * np.eye(len(idx))
+    mu = H @ b + K[:, idx] @ np.linalg.solve(S, y - H[idx] @ b)
+    var = np.diag(K) - np.einsum("ij,ji->i", K[:, idx], np.linalg.solve(S, K[idx, :]))
+    np.testing.assert_allclose(gp.node_mean(), mu, atol=1e-8)
+    np.testing.assert_allclose(gp.node_var(), var, atol=1e-8)
+    a = np.zeros(len(x))
+    a[:10] = 0.1  # a figure of the untapped forward-facing part
+    m, v, w = gp.figures(a)
+    np.testing.assert_allclose(m[0], a @ mu, atol=1e-8)
+    np.testing.assert_allclose(v[0], a @ K @ a - a @ K[:, idx] @ np.linalg.solve(S, K[idx] @ a), atol=1e-8)
+    with pytest.raises(InputError, match="trend means"):
+        SurfaceGP(d, normals=nrm, trend_basis="newtonian", trend_mean=[1.0, 0.0, 0.0])
+
+
+def test_stagnation_prior_fills_the_windward_side_of_a_sphere_with_no_tap_on_it():
+    # Newton's sine-squared law with Cp_max = 1 (Anderson, Hypersonic and High-Temperature Gas Dynamics, ch. 3;
+    # Cp = 1 at the stagnation point of incompressible flow, Bernoulli) on the windward half, a base level on the
+    # leeward half, read by taps on the leeward half only: the impact term's coefficient is then unseen, and only
+    # the prior centred on stagnation puts the windward cap near Cp = 1 (a zero-mean prior leaves it near the
+    # base level).
+    from meshpress.fields import make_field
+    from meshpress.kriging import trend_features
+
+    v, f = icosphere(3)
+    body = Body(v, f, axles=Axles(-0.5, 0.5))
+    pts = fib_points(60)
+    pts = pts[pts[:, 0] > 0.05]
+
+    def cp(normals):
+        F = trend_features(normals, "newtonian")
+        return -0.2 + F[:, 0] - 0.1 * F[:, 1]
+
+    taps = make_taps(body, pts)
+    taps = taps.with_values(cp(body.face_normals[taps.faces]))
+    cap = body.face_normals[:, 0] < -0.9
+    err = {}
+    for stagnation in (True, False):
+        fld = make_field("kriging", stagnation=stagnation, extrapolation="none").fit(body, taps)
+        err[stagnation] = np.abs(np.asarray(fld.face_values())[cap] - cp(body.face_normals[cap])).max()
+    assert err[True] < 0.1
+    assert err[False] > 0.5
 
 
 @pytest.mark.slow

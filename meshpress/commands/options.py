@@ -66,6 +66,20 @@ def add_gp_trend_option(g):
                    help="mean of the kriging model beyond a constant (default newtonian: impact pressure on skin "
                         "facing the flow, a level on rear-facing skin; normal: linear in the surface normal; "
                         "docs/uncertainty.md)")
+    add_stagnation_option(g)
+
+
+def add_stagnation_option(g):
+    """``--stagnation-prior``: centre the Newtonian impact term on full stagnation pressure."""
+    g.add_argument("--stagnation-prior", default="on", choices=("on", "off"),
+                   help="with the newtonian trend, expect skin facing the flow to sit near stagnation (Cp = 1) "
+                        "unless the taps say otherwise (default on; off: no expected level; needs Cp readings or "
+                        "q; docs/uncertainty.md)")
+
+
+def stagnation_prior(args) -> bool:
+    """Whether ``--stagnation-prior`` is on (on when the command has no such option)."""
+    return getattr(args, "stagnation_prior", "on") == "on"
 
 
 def gp_trend(args):
@@ -153,7 +167,7 @@ def method_settings(args, method=None) -> dict:
         if args.trend == "auto":
             raise InputError("--trend auto is for the geodesic method; kriging takes constant, normal or newtonian")
         trend = {None: "newtonian", "constant": None}.get(args.trend, args.trend)
-        s = {"kernel": args.kernel or "exponential", "trend": trend, **common}
+        s = {"kernel": args.kernel or "exponential", "trend": trend, "stagnation": stagnation_prior(args), **common}
     else:
         s = {}
     if args.regions is not None:

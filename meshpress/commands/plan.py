@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from .options import (add_body_options, add_flow_options, add_gp_kernel_option, add_gp_orientation_option,
-                      add_gp_trend_option, gp_trend, load_inputs, speed_mps)
+                      add_gp_trend_option, gp_trend, load_inputs, speed_mps, stagnation_prior)
 
 PLAN_FIGURES = ("CL", "CD", "CS", "CLF", "CLR", "CPM")
 
@@ -115,7 +115,7 @@ def run(args) -> int:
                      min_spacing=spacing, length_scale=ell, q=resolve_q(args.q, speed_mps(args.speed), args.air_density),
                      ref_area=args.ref_area, kernel=args.kernel_gp, regions=args.regions,
                      orientation=args.orientation_gp == "on", orientation_kernel=args.orientation_kernel,
-                     trend=gp_trend(args), progress=progress)
+                     trend=gp_trend(args), stagnation_prior=stagnation_prior(args), progress=progress)
     pts = body.frame.to_mesh(plan.points) if body.frame else plan.points
     existing = set(taps.names) if taps is not None else set()
     names, k = [], 1

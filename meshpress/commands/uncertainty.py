@@ -11,7 +11,7 @@ from __future__ import annotations
 
 from .options import (add_body_options, add_field_options, add_flow_options, add_gp_kernel_option,
                       add_gp_orientation_option, add_gp_trend_option, gp_trend, load_inputs, method_settings,
-                      speed_mps)
+                      speed_mps, stagnation_prior)
 
 U_COLUMNS = ("u", "p_u", "cp_u", "sem", "p_sem", "cp_sem")
 #: Field methods whose spread ``--spread`` shows by default (harmonic is a cross-check only, strip a baseline).
@@ -206,7 +206,7 @@ def run(args) -> int:
     meas = Measurement.build(len(taps), tap_u=tap_u, sensor=sensor, u_p_ref=args.u_p_ref, u_q_rel=u_q_rel)
     gp_kw = dict(q=q, ref_area=loads.ref_area_m2, carrier=carrier, kernel=args.kernel_gp, regions=args.regions,
                  orientation=args.orientation_gp == "on", orientation_kernel=args.orientation_kernel,
-                 trend=gp_trend(args), progress=progress)
+                 trend=gp_trend(args), stagnation_prior=stagnation_prior(args), progress=progress)
     with progress.step("kriging bands"):
         unc = compute_uncertainty(body, taps, meas=meas, field=field, **gp_kw)
     change = None

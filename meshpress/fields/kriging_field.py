@@ -60,7 +60,7 @@ class KrigingField(BoundedMixin, Field):
     name = "kriging"
 
     def __init__(self, kernel="exponential", patches=2500, trend="newtonian", orientation=False, extrapolation="clamp",
-                 far_value=None, carrier=None):
+                 far_value=None, carrier=None, stagnation=True, orientation_kernel="se"):
         self.kernel = kernel
         self.patches = patches
         self.trend = trend
@@ -68,10 +68,12 @@ class KrigingField(BoundedMixin, Field):
         self.extrapolation = extrapolation
         self.far_value = far_value
         self.carrier = carrier
+        self.stagnation = stagnation
+        self.orientation_kernel = orientation_kernel
 
     def _fit(self, body, taps, progress):
         from ..errors import InputError
-        from ..kriging import TRENDS, SurfaceGP
+        from ..kriging import TRENDS, SurfaceGP, impact_prior, stagnation_value
         from ..patches import Carrier
 
         if len(taps) < 3:
@@ -82,7 +84,10 @@ class KrigingField(BoundedMixin, Field):
         carrier = self.carrier
         if carrier is None or carrier.body is not body:
             carrier = Carrier(body, self.patches, progress=progress)
-        gp = SurfaceGP.on_carrier(carrier, kernel=self.kernel, trend=self.trend, orientation=self.orientation)
+        # Readings in Pa: the field method is not told q, so no stagnation level is known.
+        stag = stagnation_value(taps.kind) if self.stagnation else None
+        gp = SurfaceGP.on_carrier(carrier, kernel=self.kernel, trend=self.trend, orientation=self.orientation,
+                                  orientation_kernel=self.orientation_kernel, trend_mean=impact_prior(self.trend, stag))
         gp.fit(carrier.points_matrix(taps.points), taps.values)
         self.carrier_, self.gp_ = carrier, gp
         self.node_values_ = gp.node_mean()
@@ -96,7 +101,7 @@ class KrigingField(BoundedMixin, Field):
         self._check()
         n = len(self.taps_)
         Sinv = sla.cho_solve(self.gp_.S_cho_, np.eye(n))
-        return (Sinv @ self.taps_.values) / np.diag(Sinv)
+        return (Sinv @ self.gp_.y_) / np.diag(Sinv)  # y_: the readings less the prior mean
 
     def describe(self) -> str:
         return getattr(self, "gp_", None) and self.gp_.describe() or f"kriging ({self.kernel})"
