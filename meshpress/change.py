@@ -210,7 +210,7 @@ def compute_change(body, taps, y_base, y_other, *, err_base: ErrorSources, err_o
                    correlation: float = 1.0, q=None, ref_area, carrier=None, n_patches: int = 2500,
                    kernel: str = "auto", base_result=None, other_result=None, field_change=None,
                    base_label="base", other_label="other", regions=None, trend: str | None = "newtonian",
-                   orientation: bool = True, orientation_kernel: str = "matern52", stagnation_prior: bool = True,
+                   orientation: bool = True, orientation_kernel: str = "matern52", stagnation_prior="auto",
                    progress=None) -> ChangeResult:
     """Kriging estimate and band of every figure's change ``other - base`` on shared taps.
 
@@ -244,7 +244,7 @@ def compute_change(body, taps, y_base, y_other, *, err_base: ErrorSources, err_o
         The model's mean (:func:`~meshpress.uncertainty.compute_uncertainty`).
     orientation, orientation_kernel
         The normals' factor in the model's correlation and its form (as there).
-    stagnation_prior : bool
+    stagnation_prior : {"auto", True, False}
         For each configuration's own bands (as there); the change itself is
         modelled with a prior mean of 0.
 

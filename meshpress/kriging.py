@@ -275,6 +275,10 @@ class SurfaceGP:
         0: ``beta ~ N(trend_mean, t^2 I)``.  The model's prior mean is then
         ``h(n) . trend_mean`` and the taps are fitted as departures from it
         (e.g. :func:`impact_prior`).
+    trend_mean_choice : bool
+        Fit the model with ``trend_mean`` and with a prior mean of 0, and
+        keep the one of higher marginal likelihood (``trend_mean_used_``,
+        ``trend_mean_candidates_``: negative log-likelihoods).
 
     Attributes (after fit)
     ----------------------
@@ -301,7 +305,7 @@ class SurfaceGP:
     def __init__(self, distance, *, kernel: str = "exponential", spectrum=None, length_scale=None, variance=None,
                  nugget=None, mean_variance=None, normals=None, trend_variance=None, groups=None,
                  orientation=False, normal_scale=None, trend=None, orientation_kernel="se", trend_basis="normal",
-                 trend_mean=None):
+                 trend_mean=None, trend_mean_choice=False):
         self.distance = np.asarray(distance, float)
         self.orientation = bool(orientation)
         self.normal_scale = normal_scale
@@ -334,6 +338,7 @@ class SurfaceGP:
         self.basis = None if normals is None else trend_features(self.normals, trend_basis)
         self.trend_variance = trend_variance
         self.trend_mean = None if trend_mean is None else np.asarray(trend_mean, float).ravel()
+        self.trend_mean_choice = bool(trend_mean_choice)
         if self.trend_mean is not None and self.basis is not None and len(self.trend_mean) != self.basis.shape[1]:
             raise InputError(f"{len(self.trend_mean)} trend means for {self.basis.shape[1]} trend columns")
         self.mean_variance = mean_variance
@@ -382,8 +387,24 @@ class SurfaceGP:
             Bounds of the length scale, m; default (median distance from a tap
             to its nearest neighbour, 3 * largest distance).
         """
+        import copy
+
         import scipy.sparse as sp
 
+        if self.trend_mean_choice and self.trend_mean is not None and np.any(self.trend_mean):
+            # Type-II maximum likelihood between the prior mean and none, as between kernels: both fits are full
+            # fits; the one whose marginal likelihood of the taps is higher is kept.
+            fits = []
+            for mean in (self.trend_mean, None):
+                g = copy.copy(self)
+                g.trend_mean_choice, g.trend_mean = False, mean
+                fits.append(g.fit(tap_matrix, y, noise_var, length_bounds=length_bounds))
+            keep = fits[1] if fits[1].nll_ < fits[0].nll_ else fits[0]
+            self.__dict__.update(keep.__dict__)
+            self.trend_mean_choice, self.trend_mean = True, fits[0].trend_mean
+            self.trend_mean_candidates_ = {"prior": fits[0].nll_, "none": fits[1].nll_}
+            self.trend_mean_used_ = keep is fits[0]
+            return self
         T = sp.csr_matrix(tap_matrix)
         y = np.asarray(y, float)
         n = len(y)
@@ -772,6 +793,8 @@ class SurfaceGP:
         trend = f", {self.trend_basis} trend sd {np.sqrt(self.trend_variance_):.3g}" if self.trend_variance_ else ""
         if trend and self.prior_nodes_ is not None:
             trend += f" about a stagnation level of {self.trend_mean[0]:.3g}"
+        elif trend and getattr(self, "trend_mean_used_", True) is False:
+            trend += " about 0 (the taps' likelihood preferred it to a stagnation level)"
         regions = "" if self.groups is None else f", {len(np.unique(self.groups))} independent regions"
         if self.orientation and np.isfinite(self.normal_scale_):
             regions = f", orientation scale {self.normal_scale_:.2g} ({self.orientation_form_})" + regions

@@ -374,7 +374,7 @@ def report_numbers(result: UncertaintyResult, figure: str = "CL") -> dict:
 def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | None = None, carrier=None,
                         n_patches: int = 2500, field=None, kernel: str = "auto", length_scale=None,
                         trend: str | None = "newtonian", regions=None, orientation: bool = True,
-                        orientation_kernel: str = "matern52", stagnation_prior: bool = True,
+                        orientation_kernel: str = "matern52", stagnation_prior="auto",
                         progress=None) -> UncertaintyResult:
     """Kriging estimate and band of every figure.
 
@@ -416,12 +416,14 @@ def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | Non
         default Matérn-5/2 of the angle between the normals (docs/uncertainty.md
         measures each); ``auto`` keeps the one of highest marginal likelihood
         among ``se``, ``matern52`` and ``matern32``.
-    stagnation_prior : bool
+    stagnation_prior : {"auto", True, False}
         With the Newtonian trend, centre the impact term's coefficient on full
         stagnation pressure (Cp = 1, or q for readings in Pa when ``q`` is
         given; :func:`~meshpress.kriging.impact_prior`) instead of 0, so that a
         nose no tap sees is expected near stagnation, not at the mean of the
-        taps (docs/uncertainty.md measures both).  Off for a field of changes.
+        taps; ``"auto"`` (default) fits both and keeps the one of higher
+        marginal likelihood (docs/uncertainty.md measures all three).  False
+        for a field of changes.
 
     Returns
     -------
@@ -443,10 +445,10 @@ def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | Non
     groups, B = carrier.regions(regions)
     a = carrier.fine_weights(G, B)
     T = carrier.points_matrix(taps.points)
-    stag = stagnation_value(taps.kind, q) if stagnation_prior else None
+    stag = stagnation_value(taps.kind, q) if stagnation_prior else None  # "auto" is truthy
     gp = SurfaceGP.on_carrier(carrier, kernel=kernel, trend=trend, length_scale=length_scale, groups=groups,
                               orientation=orientation, orientation_kernel=orientation_kernel,
-                              trend_mean=impact_prior(trend, stag))
+                              trend_mean=impact_prior(trend, stag), trend_mean_choice=stagnation_prior == "auto")
     gp.fit(T, taps.values, meas.tap_u**2)
     mean, var, Wk = gp.figures(a)
     closure = G.sum(axis=0)

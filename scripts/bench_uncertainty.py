@@ -17,8 +17,9 @@ default of ``meshpress uncertainty``), "normal" (linear in the surface normal) o
 is a ``--regions`` specification, e.g. "normal", applied to both the model and the RBF field; a seventh
 argument "on" adds the orientation factor to the model's correlation, and an eighth names its form: se,
 exponential, matern32, matern52 (default, as in ``meshpress uncertainty``) or auto; the output file's name ends in
-``_orientation`` for se and ``_orientation-FORM`` for the others; a ninth, "on" (default) or "off", centres the
-Newtonian impact term on full stagnation pressure (``stagnation_prior``), adding ``_stagnation`` to the name).
+``_orientation`` for se and ``_orientation-FORM`` for the others; a ninth, "on" or "off", centres the
+Newtonian impact term on full stagnation pressure (``stagnation_prior``), adding ``_stagnation`` to the name;
+"auto", the default, keeps it or not by marginal likelihood, adding ``_stagnation-auto``).
 """
 
 from __future__ import annotations
@@ -69,6 +70,9 @@ def run_case(case, n_layouts, n_patches, rng, kernel="auto", trend=None, regions
                                     trend=trend, regions=regions, orientation=orientation,
                                     orientation_kernel=orientation_kernel, stagnation_prior=stagnation)
             chosen[r.gp.kernel_] = chosen.get(r.gp.kernel_, 0) + 1
+            if stagnation == "auto":
+                k = "stagnation prior kept" if r.gp.trend_mean_used_ else "stagnation prior dropped"
+                chosen[k] = chosen.get(k, 0) + 1
             times.append(time.perf_counter() - t)
             for f in FIGS:
                 b = r.band(f)
@@ -105,7 +109,7 @@ def main():
     regions = None if regions == "none" else regions
     orientation = (sys.argv[7] if len(sys.argv) > 7 else "off") == "on"
     okernel = sys.argv[8] if len(sys.argv) > 8 else "matern52"
-    stagnation = (sys.argv[9] if len(sys.argv) > 9 else "on") == "on"
+    stagnation = {"on": True, "off": False, "auto": "auto"}[sys.argv[9] if len(sys.argv) > 9 else "auto"]
     rng = np.random.default_rng(2026)
     report = {}
     for case in cases:
@@ -123,7 +127,7 @@ def main():
                       f"  1.96u/rms err {v['halfwidth_over_rms_err']:.2f}  (n={v['n']})")
     tag = (("" if regions is None else "_regions-" + regions.replace(";", "+")) + ("_orientation" if orientation else "")
            + ("" if okernel == "se" or not orientation else "-" + okernel)
-           + ("_stagnation" if stagnation and trend == "newtonian" else ""))
+           + ("" if not stagnation or trend != "newtonian" else "_stagnation" + ("-auto" if stagnation == "auto" else "")))
     out = (Path(__file__).resolve().parent
            / f"bench_uncertainty_{n}_{n_patches}_{'-'.join(cases)}_{kernel.replace(',', '+')}_{trend}{tag}.json")
     out.write_text(json.dumps(report, indent=1))

@@ -527,6 +527,31 @@ def test_stagnation_prior_fills_the_windward_side_of_a_sphere_with_no_tap_on_it(
     assert err[False] > 0.5
 
 
+def test_stagnation_prior_is_kept_or_dropped_by_marginal_likelihood():
+    # Type-II maximum likelihood model choice (Rasmussen and Williams 2006, sec. 5.4): with readings that follow
+    # Newton's law at Cp_max = 1 on the windward side (Anderson, ch. 3) the prior centred on stagnation fits the
+    # taps better than one centred on 0, and with a windward side in suction (Cp = -0.5 cos^2, invented) worse;
+    # the choice keeps the better fit, and its likelihoods are those of the two fits made separately.
+    from meshpress.kriging import impact_prior, trend_features
+
+    v, f = icosphere(3)
+    body = Body(v, f, axles=Axles(-0.5, 0.5))
+    car = Carrier(body, 600)
+    taps = make_taps(body, fib_points(40))
+    F = trend_features(body.face_normals[taps.faces], "newtonian")
+    T = car.points_matrix(taps.points)
+    b = impact_prior("newtonian", 1.0)
+    for a, keep in ((1.0, True), (-0.5, False)):
+        y = -0.2 + a * F[:, 0] - 0.1 * F[:, 1]
+        kw = dict(kernel="exponential", trend="newtonian", orientation=True, orientation_kernel="matern52")
+        gp = SurfaceGP.on_carrier(car, trend_mean=b, trend_mean_choice=True, **kw).fit(T, y, 1e-6)
+        on = SurfaceGP.on_carrier(car, trend_mean=b, **kw).fit(T, y, 1e-6)
+        off = SurfaceGP.on_carrier(car, **kw).fit(T, y, 1e-6)
+        assert gp.trend_mean_used_ is keep
+        assert gp.trend_mean_candidates_ == pytest.approx({"prior": on.nll_, "none": off.nll_})
+        np.testing.assert_allclose(gp.node_mean(), (on if keep else off).node_mean(), atol=1e-10)
+
+
 @pytest.mark.slow
 def test_cli_uncertainty_report_map_and_spread(cli, samples_dir, tmp_path):
     # The reporting: bands in the report beside the method spread, and a map of where unknown pressure

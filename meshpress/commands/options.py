@@ -71,15 +71,15 @@ def add_gp_trend_option(g):
 
 def add_stagnation_option(g):
     """``--stagnation-prior``: centre the Newtonian impact term on full stagnation pressure."""
-    g.add_argument("--stagnation-prior", default="on", choices=("on", "off"),
+    g.add_argument("--stagnation-prior", default="auto", choices=("auto", "on", "off"),
                    help="with the newtonian trend, expect skin facing the flow to sit near stagnation (Cp = 1) "
-                        "unless the taps say otherwise (default on; off: no expected level; needs Cp readings or "
-                        "q; docs/uncertainty.md)")
+                        "unless the taps say otherwise: on, off (no expected level), or auto (default: whichever "
+                        "the taps' marginal likelihood prefers); needs Cp readings or q; docs/uncertainty.md")
 
 
-def stagnation_prior(args) -> bool:
-    """Whether ``--stagnation-prior`` is on (on when the command has no such option)."""
-    return getattr(args, "stagnation_prior", "on") == "on"
+def stagnation_prior(args):
+    """``--stagnation-prior`` as the models take it: "auto", True or False ("auto" without the option)."""
+    return {"on": True, "off": False}.get(getattr(args, "stagnation_prior", "auto"), "auto")
 
 
 def gp_trend(args):
@@ -102,7 +102,8 @@ def add_field_options(p, method_help=None):
         g.add_argument("--method", default=None, metavar="NAME", help=method_help)
     g.add_argument("--kernel", default=None, help="RBF kernel: " + ", ".join(KERNELS)
                    + " (default thin_plate_spline); geodesic: " + ", ".join(GEODESIC_KERNELS) + " (default matern52); "
-                   "kriging: as --kernel-gp of 'meshpress uncertainty' (default exponential)")
+                   "kriging: as --kernel-gp of 'meshpress uncertainty', or loo (default: the one of lowest "
+                   "leave-one-out error)")
     g.add_argument("--smoothing", type=float, default=0.0, help="RBF smoothing (default 0: exact at taps)")
     g.add_argument("--length", type=float, metavar="L",
                    help="geodesic kernel length scale, m (default: chosen by leave-one-out error)")
@@ -111,10 +112,10 @@ def add_field_options(p, method_help=None):
                    help="mean of the geodesic and kriging fields: constant (geodesic default), linear in the surface "
                         "normal, (kriging, its default) newtonian: impact pressure on skin facing the flow and a base "
                         "level on rear-facing skin, or (geodesic) chosen by leave-one-out; docs/accuracy.md measures them")
-    g.add_argument("--orientation", default="off", choices=("on", "off"),
-                   help="geodesic field: the kernel also falls with the angle between the surface normals, at a scale "
-                        "chosen by leave-one-out with the length (default off; on for wings and thin parts; "
-                        "docs/accuracy.md)")
+    g.add_argument("--orientation", default=None, choices=("on", "off"),
+                   help="geodesic and kriging fields: the kernel also falls with the angle between the surface normals, "
+                        "at a scale chosen with the length (geodesic: by leave-one-out, default off, on for wings and "
+                        "thin parts; kriging: by maximum likelihood, default on; docs/accuracy.md)")
     g.add_argument("--work-faces", type=int, default=None, metavar="N",
                    help="surface methods solve on a copy simplified to N faces (default 80000)")
     g.add_argument("--band", type=float, default=0.05, metavar="W",
@@ -167,7 +168,8 @@ def method_settings(args, method=None) -> dict:
         if args.trend == "auto":
             raise InputError("--trend auto is for the geodesic method; kriging takes constant, normal or newtonian")
         trend = {None: "newtonian", "constant": None}.get(args.trend, args.trend)
-        s = {"kernel": args.kernel or "exponential", "trend": trend, "stagnation": stagnation_prior(args), **common}
+        s = {"kernel": args.kernel or "loo", "trend": trend, "stagnation": stagnation_prior(args),
+             "orientation": args.orientation != "off", **common}
     else:
         s = {}
     if args.regions is not None:
