@@ -40,6 +40,13 @@ EST_FORM = inspect.signature(compute_uncertainty).parameters["orientation_kernel
 EST_TREND = inspect.signature(compute_uncertainty).parameters["trend"].default
 #: The planner's trend: plan_taps's default (recorded in the output's name and content).
 PLAN_TREND = inspect.signature(plan_taps).parameters["trend"].default
+#: The stagnation prior of the estimate and of the planner: their defaults (recorded likewise).
+EST_STAG = inspect.signature(compute_uncertainty).parameters["stagnation_prior"].default
+PLAN_STAG = inspect.signature(plan_taps).parameters["stagnation_prior"].default
+
+
+def _stag_tag(trend, stag) -> str:
+    return f"-stagnation-{'auto' if stag == 'auto' else 'on'}" if trend == "newtonian" and stag else ""
 
 
 def main():
@@ -83,7 +90,8 @@ def main():
         print(f"case {c + 1}/{n_cases}: " + "  ".join(
             f"{k} " + ",".join(f"{res[k][f][-1]:.3f}" for f in FIGS) for k in res), flush=True)
     out = {"n_cases": n_cases, "planner_orientation": orient, "planner_form": form,
-           "estimate_form": EST_FORM, "estimate_trend": EST_TREND, "planner_trend": PLAN_TREND, "n_random": n_random, "median_plan_s": float(np.median(t_plan)), "truth": {f: truth[f] for f in FIGS}}
+           "estimate_form": EST_FORM, "estimate_trend": EST_TREND, "planner_trend": PLAN_TREND,
+           "estimate_stagnation_prior": EST_STAG, "planner_stagnation_prior": PLAN_STAG, "n_random": n_random, "median_plan_s": float(np.median(t_plan)), "truth": {f: truth[f] for f in FIGS}}
     for k in res:
         out[k] = {f: {"mean_abs_err": float(np.mean(res[k][f])), "mean_u": float(np.mean(res_u[k][f])),
                       "rbf_mean_abs_err": float(np.mean(res_rbf[k][f]))} for f in FIGS}
@@ -94,7 +102,8 @@ def main():
               f"+20 random {r:.4f}  planned/random {p / r:.2f}")
     tag = (("_orientation" if orient else "") + (f"-{form}" if orient and form != "se" else "")
            + (f"_r{n_random}" if n_random > 1 else "") + (f"_estimate-{EST_FORM}" if EST_FORM != "se" else "")
-           + (f"-{EST_TREND}" if EST_TREND else "") + (f"_planner-{PLAN_TREND}" if PLAN_TREND else ""))
+           + (f"-{EST_TREND}" if EST_TREND else "") + _stag_tag(EST_TREND, EST_STAG)
+           + (f"_planner-{PLAN_TREND}" if PLAN_TREND else "") + _stag_tag(PLAN_TREND, PLAN_STAG))
     (Path(__file__).resolve().parent / f"bench_planning_{n_cases}{tag}.json").write_text(json.dumps(out, indent=1))
 
 

@@ -131,3 +131,23 @@ def test_point_chunks_give_the_one_block_answer():
 
     np.testing.assert_allclose(by_point_chunks(fi, b, raw, chunk=7), raw(fi, b), rtol=1e-12)
     np.testing.assert_allclose(whole, raw(fi, b), rtol=1e-12)
+
+
+def test_kriging_kernel_chosen_by_loo_and_rechosen_without_each_tap():
+    # kernel="loo": every candidate fitted by maximum likelihood, the one of lowest leave-one-out RMS kept; the
+    # nested residual of tap i is that of the kernel the other taps' residuals pick (Cawley and Talbot 2010).
+    from meshpress.kriging import AUTO_KERNELS
+
+    v, f = icosphere(3)
+    sphere = Body(v, f)
+    pts = fibonacci_sphere(30)
+    taps = make_taps(sphere, pts, np.sin(2 * pts[:, 0]) + pts[:, 2] ** 2)
+    kw = dict(orientation=False, stagnation=False, patches=400)
+    field = make_field("kriging", kernel="loo", **kw).fit(sphere, taps)
+    R = np.array([make_field("kriging", kernel=k, carrier=field.carrier_, **kw).fit(sphere, taps).loo_residuals()
+                  for k in AUTO_KERNELS])
+    rms = np.sqrt(np.mean(R**2, axis=1))
+    assert field.gp_.kernel_ == AUTO_KERNELS[int(np.argmin(rms))]
+    np.testing.assert_allclose(field.loo_residuals(), R[np.argmin(rms)], atol=1e-12)
+    want = [R[np.argmin([(np.delete(r, i) ** 2).sum() for r in R]), i] for i in range(len(taps))]
+    np.testing.assert_allclose(field.loo_residuals_nested(), want, atol=1e-12)

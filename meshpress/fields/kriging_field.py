@@ -20,6 +20,9 @@ Leave-one-out residuals have a closed form, ``[S^-1 y]_i / [S^-1]_ii``
 
 from __future__ import annotations
 
+import os
+from concurrent.futures import ThreadPoolExecutor
+
 import numpy as np
 
 from .base import Field
@@ -86,7 +89,8 @@ class KrigingField(BoundedMixin, Field):
 
     def _fit(self, body, taps, progress):
         from ..errors import InputError
-        from ..kriging import AUTO_KERNELS, TRENDS, SurfaceGP, impact_prior, stagnation_value
+        from ..kriging import (AUTO_KERNELS, SPECTRAL_KERNELS, TRENDS, SurfaceGP, impact_prior, kernel_names,
+                               stagnation_value)
         from ..patches import Carrier
 
         if len(taps) < 3:
@@ -101,19 +105,23 @@ class KrigingField(BoundedMixin, Field):
         stag = stagnation_value(taps.kind) if self.stagnation else None
         T = carrier.points_matrix(taps.points)
         names = list(AUTO_KERNELS) if self.kernel == "loo" else [self.kernel]
-        self.loo_by_kernel_ = {}
-        best = None
-        for name in names:
+        if any(k in SPECTRAL_KERNELS for k in kernel_names(names[0] if len(names) == 1 else "auto")):
+            carrier.spectrum()  # cached: computed once, before the candidates share it
+
+        def fit(name):
             gp = SurfaceGP.on_carrier(carrier, kernel=name, trend=self.trend, orientation=self.orientation,
                                       orientation_kernel=self.orientation_kernel,
                                       trend_mean=impact_prior(self.trend, stag),
                                       trend_mean_choice=self.stagnation == "auto")
-            gp.fit(T, taps.values)
-            r = _loo(gp)
-            self.loo_by_kernel_[gp.kernel_ if len(names) == 1 else name] = r
-            if best is None or np.sqrt(np.mean(r**2)) < best[0]:
-                best = (float(np.sqrt(np.mean(r**2))), gp)
-        self.carrier_, self.gp_ = carrier, best[1]
+            return gp.fit(T, taps.values)
+
+        # The candidates' fits are independent and spend their time in LAPACK (which releases the GIL): two at
+        # a time on a 2-core machine.
+        with ThreadPoolExecutor(max_workers=min(2, len(names), os.cpu_count() or 1)) as pool:
+            gps = list(pool.map(fit, names))
+        self.loo_by_kernel_ = {(gp.kernel_ if len(names) == 1 else name): _loo(gp) for name, gp in zip(names, gps)}
+        rms = [float(np.sqrt(np.mean(r**2))) for r in self.loo_by_kernel_.values()]
+        self.carrier_, self.gp_ = carrier, gps[int(np.argmin(rms))]
         self.node_values_ = self.gp_.node_mean()
 
     def _face_values(self, progress):
