@@ -210,7 +210,7 @@ def compute_change(body, taps, y_base, y_other, *, err_base: ErrorSources, err_o
                    correlation: float = 1.0, q=None, ref_area, carrier=None, n_patches: int = 2500,
                    kernel: str = "auto", base_result=None, other_result=None, field_change=None,
                    base_label="base", other_label="other", regions=None, trend: str | None = "newtonian",
-                   orientation: bool = True, orientation_kernel: str = "matern52", stagnation_prior="auto",
+                   orientation: bool = True, orientation_kernel: str = "matern52", stagnation_prior=True,
                    progress=None) -> ChangeResult:
     """Kriging estimate and band of every figure's change ``other - base`` on shared taps.
 

@@ -150,7 +150,7 @@ def greedy_plan(cov, a, n_add, *, candidates, blocked_from=(), distance=None, mi
 def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrier=None, n_patches=2500,
               q=None, ref_area=None, boxes=(), excluded_faces=None, min_spacing=0.05, length_scale=None,
               kernel="exponential", regions=None, orientation: bool = True, orientation_kernel: str = "matern52",
-              trend: str | None = "newtonian", stagnation_prior="auto", progress=None) -> Plan:
+              trend: str | None = "newtonian", stagnation_prior=True, progress=None) -> Plan:
     """Propose ``n_add`` tap positions that cut the chosen figures' uncertainty most.
 
     Parameters

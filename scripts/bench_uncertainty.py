@@ -17,9 +17,9 @@ default of ``meshpress uncertainty``), "normal" (linear in the surface normal) o
 is a ``--regions`` specification, e.g. "normal", applied to both the model and the RBF field; a seventh
 argument "on" adds the orientation factor to the model's correlation, and an eighth names its form: se,
 exponential, matern32, matern52 (default, as in ``meshpress uncertainty``) or auto; the output file's name ends in
-``_orientation`` for se and ``_orientation-FORM`` for the others; a ninth, "on" or "off", centres the
+``_orientation`` for se and ``_orientation-FORM`` for the others; a ninth, "on" (default, as ``compute_uncertainty``) or "off", centres the
 Newtonian impact term on full stagnation pressure (``stagnation_prior``), adding ``_stagnation`` to the name;
-"auto", the default, keeps it or not by marginal likelihood, adding ``_stagnation-auto``).
+"auto" keeps it or not by marginal likelihood, adding ``_stagnation-auto``).
 """
 
 from __future__ import annotations
@@ -109,7 +109,7 @@ def main():
     regions = None if regions == "none" else regions
     orientation = (sys.argv[7] if len(sys.argv) > 7 else "off") == "on"
     okernel = sys.argv[8] if len(sys.argv) > 8 else "matern52"
-    stagnation = {"on": True, "off": False, "auto": "auto"}[sys.argv[9] if len(sys.argv) > 9 else "auto"]
+    stagnation = {"on": True, "off": False, "auto": "auto"}[sys.argv[9] if len(sys.argv) > 9 else "on"]
     rng = np.random.default_rng(2026)
     report = {}
     for case in cases:

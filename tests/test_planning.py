@@ -35,8 +35,7 @@ def test_variance_shrinks_when_taps_are_added_at_the_planned_points(sphere, orie
     spec = car.spectrum()
     form = "matern52"  # plan_taps' default form of the orientation factor (and its default trend below)
     gp0 = SurfaceGP.on_carrier(car, kernel="auto", orientation=orientation, orientation_kernel=form,
-                               trend="newtonian", trend_mean=impact_prior("newtonian", 1.0),
-                               trend_mean_choice=True)
+                               trend="newtonian", trend_mean=impact_prior("newtonian", 1.0))
     gp0.fit(car.points_matrix(taps.points), taps.values)
     both = make_taps(sphere, np.vstack([taps.points, plan.points]))
     gp1 = SurfaceGP(car.distance, kernel=gp0.kernel_, spectrum=spec, length_scale=gp0.length_scale_,

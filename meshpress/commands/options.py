@@ -71,15 +71,17 @@ def add_gp_trend_option(g):
 
 def add_stagnation_option(g):
     """``--stagnation-prior``: centre the Newtonian impact term on full stagnation pressure."""
-    g.add_argument("--stagnation-prior", default="auto", choices=("auto", "on", "off"),
+    g.add_argument("--stagnation-prior", default=None, choices=("auto", "on", "off"),
                    help="with the newtonian trend, expect skin facing the flow to sit near stagnation (Cp = 1) "
-                        "unless the taps say otherwise: on, off (no expected level), or auto (default: whichever "
-                        "the taps' marginal likelihood prefers); needs Cp readings or q; docs/uncertainty.md")
+                        "unless the taps say otherwise: on (default of the bands), off (no expected level), or auto "
+                        "(whichever the taps' marginal likelihood prefers; default of the kriging field method); "
+                        "needs Cp readings or q; docs/uncertainty.md")
 
 
-def stagnation_prior(args):
-    """``--stagnation-prior`` as the models take it: "auto", True or False ("auto" without the option)."""
-    return {"on": True, "off": False}.get(getattr(args, "stagnation_prior", "auto"), "auto")
+def stagnation_prior(args, default=True):
+    """``--stagnation-prior`` as the models take it: "auto", True or False (``default`` when not given)."""
+    v = getattr(args, "stagnation_prior", None)
+    return default if v is None else {"on": True, "off": False, "auto": "auto"}[v]
 
 
 def gp_trend(args):
@@ -168,7 +170,7 @@ def method_settings(args, method=None) -> dict:
         if args.trend == "auto":
             raise InputError("--trend auto is for the geodesic method; kriging takes constant, normal or newtonian")
         trend = {None: "newtonian", "constant": None}.get(args.trend, args.trend)
-        s = {"kernel": args.kernel or "loo", "trend": trend, "stagnation": stagnation_prior(args),
+        s = {"kernel": args.kernel or "loo", "trend": trend, "stagnation": stagnation_prior(args, "auto"),
              "orientation": args.orientation != "off", **common}
     else:
         s = {}

@@ -108,8 +108,8 @@ class KrigingField(BoundedMixin, Field):
         if any(k in SPECTRAL_KERNELS for k in kernel_names(names[0] if len(names) == 1 else "auto")):
             carrier.spectrum()  # cached: computed once, before the candidates share it
 
-        def fit(name):
-            gp = SurfaceGP.on_carrier(carrier, kernel=name, trend=self.trend, orientation=self.orientation,
+        def fit(name, orientation=self.orientation):
+            gp = SurfaceGP.on_carrier(carrier, kernel=name, trend=self.trend, orientation=orientation,
                                       orientation_kernel=self.orientation_kernel,
                                       trend_mean=impact_prior(self.trend, stag),
                                       trend_mean_choice=self.stagnation == "auto")
@@ -119,9 +119,21 @@ class KrigingField(BoundedMixin, Field):
         # a time on a 2-core machine.
         with ThreadPoolExecutor(max_workers=min(2, len(names), os.cpu_count() or 1)) as pool:
             gps = list(pool.map(fit, names))
-        self.loo_by_kernel_ = {(gp.kernel_ if len(names) == 1 else name): _loo(gp) for name, gp in zip(names, gps)}
+        # As for kernel="auto" (SurfaceGP.fit): a fit whose length scale runs past the largest surface distance
+        # treats the body as one constant plus noise and is not a candidate while another one is not such.
+        dmax = float(carrier.distance.max())
+        ok = [gp for gp in gps if gp.length_scale_ < dmax]
+        if not ok and self.orientation:
+            # Every fit with the normals' factor ran to that bound (seen with taps in one plane only, a centre
+            # line: the factor then explains the taps' spread and the distance none of it): try without it.
+            with ThreadPoolExecutor(max_workers=min(2, len(names), os.cpu_count() or 1)) as pool:
+                gps += list(pool.map(lambda k: fit(k, False), names))
+            ok = [gp for gp in gps if gp.length_scale_ < dmax]
+        ok = ok or gps
+        self.rejected_ = [gp.describe() for gp in gps if gp not in ok]
+        self.loo_by_kernel_ = {f"{gp.kernel_}{'' if gp.orientation else ' (no orientation)'}": _loo(gp) for gp in ok}
         rms = [float(np.sqrt(np.mean(r**2))) for r in self.loo_by_kernel_.values()]
-        self.carrier_, self.gp_ = carrier, gps[int(np.argmin(rms))]
+        self.carrier_, self.gp_ = carrier, ok[int(np.argmin(rms))]
         self.node_values_ = self.gp_.node_mean()
 
     def _face_values(self, progress):
