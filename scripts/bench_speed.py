@@ -8,7 +8,8 @@ distances, kriging fit, bands: what ``meshpress uncertainty`` adds to
 ``plan`` command does).  Mesh file reading is not included.
 
 Run: ``python scripts/bench_speed.py [form...]`` (the bands' orientation forms to time in turn on the same body
-and taps; default the one ``compute_uncertainty`` uses).
+and taps, or ``stagnation=on|off|auto`` for the stagnation prior; default the settings ``compute_uncertainty``
+uses).
 """
 
 from __future__ import annotations
@@ -38,7 +39,13 @@ def main():
     t_unc = {}
     for form in sys.argv[1:] or [None]:
         t = time.perf_counter()
-        r = compute_uncertainty(body, taps, ref_area=area, **({} if form is None else {"orientation_kernel": form}))
+        if form is None:
+            kw = {}
+        elif form.startswith("stagnation="):
+            kw = {"stagnation_prior": {"on": True, "off": False, "auto": "auto"}[form.split("=", 1)[1]]}
+        else:
+            kw = {"orientation_kernel": form}
+        r = compute_uncertainty(body, taps, ref_area=area, **kw)
         t_unc[form or "default"] = time.perf_counter() - t
     t = time.perf_counter()
     plan = plan_taps(body, taps, figures=("CL", "CLF", "CLR"), n_add=20, ref_area=area, min_spacing=0.1)
