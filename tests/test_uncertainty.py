@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import dataclasses
+
 import numpy as np
 import pytest
 
@@ -525,6 +527,13 @@ def test_stagnation_prior_fills_the_windward_side_of_a_sphere_with_no_tap_on_it(
         err[stagnation] = np.abs(np.asarray(fld.face_values())[cap] - cp(body.face_normals[cap])).max()
     assert err[True] < 0.1
     assert err[False] > 0.5
+    # The same readings in Pa at q = 500 Pa: the stagnation level is q when the field is told it, and unknown
+    # (no prior) when not.
+    q = 500.0
+    pa = dataclasses.replace(taps, values=q * taps.values, kind="p")
+    for given, bound in ((q, lambda e: e < 0.1 * q), (None, lambda e: e > 0.5 * q)):
+        fld = make_field("kriging", stagnation=True, q=given, extrapolation="none").fit(body, pa)
+        assert bound(np.abs(np.asarray(fld.face_values())[cap] - q * cp(body.face_normals[cap])).max())
 
 
 def test_stagnation_prior_is_kept_or_dropped_by_marginal_likelihood():

@@ -152,6 +152,14 @@ def max_distance_m(text, length_unit) -> float:
     return value * length_factor(unit)
 
 
+def _flow_q(args) -> float | None:
+    """The run's dynamic pressure (Pa) from --q or --speed, or None (the stagnation level of readings in Pa)."""
+    from ..analysis import resolve_q
+
+    return resolve_q(getattr(args, "q", None), speed_mps(getattr(args, "speed", None)),
+                     getattr(args, "air_density", None))
+
+
 def method_settings(args, method=None) -> dict:
     """Constructor settings of ``method`` (default ``args.method``) from the parsed options."""
     method = method or args.method
@@ -171,7 +179,7 @@ def method_settings(args, method=None) -> dict:
             raise InputError("--trend auto is for the geodesic method; kriging takes constant, normal or newtonian")
         trend = {None: "newtonian", "constant": None}.get(args.trend, args.trend)
         s = {"kernel": args.kernel or "loo", "trend": trend, "stagnation": stagnation_prior(args, "auto"),
-             "orientation": args.orientation != "off", **common}
+             "orientation": args.orientation != "off", "q": _flow_q(args), **common}
     else:
         s = {}
     if args.regions is not None:

@@ -63,6 +63,9 @@ class KrigingField(BoundedMixin, Field):
         or 0, whichever the taps' marginal likelihood prefers.
     orientation_kernel : str
         Form of the normals' factor (default ``matern52``, as in the bands).
+    q : float, optional
+        Dynamic pressure, Pa: the stagnation level of readings in Pa (without
+        it such readings get no stagnation prior).
     extrapolation : {"clamp", "decay", "none"}
         Bounding beyond the taps, as for every method (:mod:`meshpress.fields.bounds`).
     far_value : float, optional
@@ -76,7 +79,7 @@ class KrigingField(BoundedMixin, Field):
     name = "kriging"
 
     def __init__(self, kernel="loo", patches=2500, trend="newtonian", orientation=True, extrapolation="clamp",
-                 far_value=None, carrier=None, stagnation="auto", orientation_kernel="matern52"):
+                 far_value=None, carrier=None, stagnation="auto", orientation_kernel="matern52", q=None):
         self.kernel = kernel
         self.patches = patches
         self.trend = trend
@@ -86,6 +89,7 @@ class KrigingField(BoundedMixin, Field):
         self.carrier = carrier
         self.stagnation = stagnation
         self.orientation_kernel = orientation_kernel
+        self.q = q
 
     def _fit(self, body, taps, progress):
         from ..errors import InputError
@@ -101,8 +105,7 @@ class KrigingField(BoundedMixin, Field):
         carrier = self.carrier
         if carrier is None or carrier.body is not body:
             carrier = Carrier(body, self.patches, progress=progress)
-        # Readings in Pa: the field method is not told q, so no stagnation level is known.
-        stag = stagnation_value(taps.kind) if self.stagnation else None
+        stag = stagnation_value(taps.kind, self.q) if self.stagnation else None
         T = carrier.points_matrix(taps.points)
         names = list(AUTO_KERNELS) if self.kernel == "loo" else [self.kernel]
         if any(k in SPECTRAL_KERNELS for k in kernel_names(names[0] if len(names) == 1 else "auto")):
