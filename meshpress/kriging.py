@@ -82,6 +82,8 @@ quadrature, O'Hagan, J. Stat. Plan. Inference 29, 1991, 245-260).
 
 from __future__ import annotations
 
+import copy
+
 import numpy as np
 import scipy.linalg as sla
 
@@ -147,6 +149,22 @@ def impact_prior(basis, stagnation):
 def stagnation_value(kind, q=None):
     """Stagnation pressure in the taps' unit: 1 for Cp, ``q`` for Pa (None when ``q`` is not known)."""
     return 1.0 if kind == "cp" else (None if q is None else float(q))
+
+
+def stagnation_params(trend, kind, q, prior) -> dict:
+    """The :class:`SurfaceGP` arguments ``trend_mean`` and ``trend_mean_choice`` of a stagnation prior setting.
+
+    Parameters
+    ----------
+    trend : str or None
+        The trend basis (only ``"newtonian"`` has a prior mean).
+    kind : {"cp", "p"}
+        The taps' unit; ``q`` (Pa or None) gives the level of Pa readings.
+    prior : {True, False, "auto"}
+        On, off, or kept by marginal likelihood.
+    """
+    stag = stagnation_value(kind, q) if prior else None
+    return {"trend_mean": impact_prior(trend, stag), "trend_mean_choice": prior == "auto"}
 
 
 def orientation_factor(c1, theta, form="se"):
@@ -387,8 +405,6 @@ class SurfaceGP:
             Bounds of the length scale, m; default (median distance from a tap
             to its nearest neighbour, 3 * largest distance).
         """
-        import copy
-
         import scipy.sparse as sp
 
         if self.trend_mean_choice and self.trend_mean is not None and np.any(self.trend_mean):
@@ -456,7 +472,7 @@ class SurfaceGP:
             # constant plus noise: on a closed body every force of a constant is zero, so its bands collapse to
             # nothing (measured on a wing whose upper and lower taps are a few mm apart round the leading edge:
             # CL 0 +/- 2e-9 against a true 0.49).  Such a fit is not used while another kernel fits without it.
-            if len(self.candidate_names) > 1 and self.length_scale is None and p["l"] >= dmax:
+            if len(self.candidate_names) > 1 and self.length_scale is None and self.spans_body(p["l"]):
                 self.rejected_.append(key)
                 continue
             if best is None or (np.isfinite(nll) and not nll >= best[3]):
@@ -467,6 +483,11 @@ class SurfaceGP:
         self.normal_scale_ = p["th"]
         self._condition()
         return self
+
+    def spans_body(self, length) -> bool:
+        """Whether a length scale (m) runs past the largest node distance: the kernel then sees the whole body
+        as one constant plus noise (the fit ``kernel="auto"`` sets aside while another one does not)."""
+        return length >= float(self.distance.max())
 
     def _candidate_key(self, name, form) -> str:
         """The name of a candidate in ``candidates_``: the kernel, with ``/form`` when several forms are tried."""

@@ -196,7 +196,7 @@ def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrie
     -------
     Plan
     """
-    from .kriging import SurfaceGP, impact_prior, stagnation_value
+    from .kriging import SurfaceGP, stagnation_params
     from .patches import Carrier
     from .projection import nearest_on_faces
     from .uncertainty import figure_face_weights
@@ -222,8 +222,7 @@ def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrie
     if n_taps >= 3:
         gp = SurfaceGP.on_carrier(carrier, kernel=kernel, length_scale=length_scale, groups=groups, trend=trend,
                                   orientation=orientation, orientation_kernel=orientation_kernel,
-                                  trend_mean=impact_prior(trend, stagnation_value(kind, q) if stagnation_prior else None),
-                                  trend_mean_choice=stagnation_prior == "auto")
+                                  **stagnation_params(trend, kind, q, stagnation_prior))
         gp.fit(carrier.points_matrix(taps.points), taps.values)
         cov = gp.posterior_cov()
         noise = gp.nugget_

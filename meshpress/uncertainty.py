@@ -432,7 +432,7 @@ def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | Non
     -------
     UncertaintyResult
     """
-    from .kriging import SurfaceGP, impact_prior, stagnation_value
+    from .kriging import SurfaceGP, stagnation_params
     from .patches import Carrier
 
     n = len(taps)
@@ -448,10 +448,9 @@ def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | Non
     groups, B = carrier.regions(regions)
     a = carrier.fine_weights(G, B)
     T = carrier.points_matrix(taps.points)
-    stag = stagnation_value(taps.kind, q) if stagnation_prior else None  # "auto" is truthy
     gp = SurfaceGP.on_carrier(carrier, kernel=kernel, trend=trend, length_scale=length_scale, groups=groups,
                               orientation=orientation, orientation_kernel=orientation_kernel,
-                              trend_mean=impact_prior(trend, stag), trend_mean_choice=stagnation_prior == "auto")
+                              **stagnation_params(trend, taps.kind, q, stagnation_prior))
     gp.fit(T, taps.values, meas.tap_u**2)
     mean, var, Wk = gp.figures(a)
     closure = G.sum(axis=0)

@@ -93,8 +93,7 @@ class KrigingField(BoundedMixin, Field):
 
     def _fit(self, body, taps, progress):
         from ..errors import InputError
-        from ..kriging import (AUTO_KERNELS, SPECTRAL_KERNELS, TRENDS, SurfaceGP, impact_prior, kernel_names,
-                               stagnation_value)
+        from ..kriging import AUTO_KERNELS, SPECTRAL_KERNELS, TRENDS, SurfaceGP, kernel_names, stagnation_params
         from ..patches import Carrier
 
         if len(taps) < 3:
@@ -105,33 +104,31 @@ class KrigingField(BoundedMixin, Field):
         carrier = self.carrier
         if carrier is None or carrier.body is not body:
             carrier = Carrier(body, self.patches, progress=progress)
-        stag = stagnation_value(taps.kind, self.q) if self.stagnation else None
+        stag = stagnation_params(self.trend, taps.kind, self.q, self.stagnation)
         T = carrier.points_matrix(taps.points)
         names = list(AUTO_KERNELS) if self.kernel == "loo" else [self.kernel]
-        if any(k in SPECTRAL_KERNELS for k in kernel_names(names[0] if len(names) == 1 else "auto")):
+        if any(k in SPECTRAL_KERNELS for name in names for k in kernel_names(name)):
             carrier.spectrum()  # cached: computed once, before the candidates share it
 
-        def fit(name, orientation=self.orientation):
-            gp = SurfaceGP.on_carrier(carrier, kernel=name, trend=self.trend, orientation=orientation,
-                                      orientation_kernel=self.orientation_kernel,
-                                      trend_mean=impact_prior(self.trend, stag),
-                                      trend_mean_choice=self.stagnation == "auto")
-            return gp.fit(T, taps.values)
+        def fit_all(orientation):
+            def fit(name):
+                return SurfaceGP.on_carrier(carrier, kernel=name, trend=self.trend, orientation=orientation,
+                                            orientation_kernel=self.orientation_kernel, **stag).fit(T, taps.values)
 
-        # The candidates' fits are independent and spend their time in LAPACK (which releases the GIL): two at
-        # a time on a 2-core machine.
-        with ThreadPoolExecutor(max_workers=min(2, len(names), os.cpu_count() or 1)) as pool:
-            gps = list(pool.map(fit, names))
-        # As for kernel="auto" (SurfaceGP.fit): a fit whose length scale runs past the largest surface distance
-        # treats the body as one constant plus noise and is not a candidate while another one is not such.
-        dmax = float(carrier.distance.max())
-        ok = [gp for gp in gps if gp.length_scale_ < dmax]
+            # The candidates' fits are independent and spend their time in LAPACK (which releases the GIL): two
+            # at a time on a 2-core machine.
+            with ThreadPoolExecutor(max_workers=min(2, len(names), os.cpu_count() or 1)) as pool:
+                return list(pool.map(fit, names))
+
+        gps = fit_all(self.orientation)
+        # As for kernel="auto" (SurfaceGP.spans_body): a fit that sees the body as one constant plus noise is not
+        # a candidate while another one is not such.
+        ok = [gp for gp in gps if not gp.spans_body(gp.length_scale_)]
         if not ok and self.orientation:
             # Every fit with the normals' factor ran to that bound (seen with taps in one plane only, a centre
             # line: the factor then explains the taps' spread and the distance none of it): try without it.
-            with ThreadPoolExecutor(max_workers=min(2, len(names), os.cpu_count() or 1)) as pool:
-                gps += list(pool.map(lambda k: fit(k, False), names))
-            ok = [gp for gp in gps if gp.length_scale_ < dmax]
+            gps += fit_all(False)
+            ok = [gp for gp in gps if not gp.spans_body(gp.length_scale_)]
         ok = ok or gps
         self.rejected_ = [gp.describe() for gp in gps if gp not in ok]
         self.loo_by_kernel_ = {f"{gp.kernel_}{'' if gp.orientation else ' (no orientation)'}": _loo(gp) for gp in ok}
