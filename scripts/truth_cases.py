@@ -171,29 +171,62 @@ def car_practical_points(body, jitter=0.0, rng=None):
     return np.array(pts)
 
 
-def practical_points(case, body, rng, n=None):
-    """A 'practical' layout: rows along the centre line and cross rows, jittered."""
+def practical_points(case, body, rng, n=None, family="varied"):
+    """A 'practical' layout: rows along the centre line and cross rows.
+
+    ``family="varied"`` (default) draws each layout's design as a team might
+    choose it: on the wing 2, 3 or 4 chordwise rows at random span stations,
+    48 taps shared between them, packed towards the leading edge by a random
+    power and split between the faces in a random proportion; on the
+    hemisphere 3, 4 or 5 meridian rows at random azimuths, their end taps at
+    random heights.  ``"jittered"`` is one design per body with small
+    position errors (the benchmark's layouts before this family): on the wing
+    and the hemisphere the field does not change along the rows' direction
+    of jitter (span, azimuth about the flow axis), so those are in effect one
+    layout repeated.  The car's layout is the sample layout jittered by 5 cm
+    in both families.
+    """
     if case == "car":
         pts = car_practical_points(body, jitter=0.05, rng=rng)
         if n is not None and n < len(pts):
             pts = pts[np.sort(rng.choice(len(pts), n, replace=False))]
         return pts
+    if family not in ("varied", "jittered"):
+        raise ValueError(family)
     if case == "hemisphere":
-        # meridian rows every 45 deg plus a ring, jittered
         pts = []
-        for phi in np.arange(0, np.pi, np.pi / 4) + rng.normal(0, 0.05):
-            for th in np.linspace(0.15, np.pi - 0.15, 9):
-                pts.append([np.cos(th), np.sin(th) * np.cos(phi), np.sin(th) * np.sin(phi)])
+        if family == "jittered":
+            # meridian rows every 45 deg plus a ring, jittered
+            for phi in np.arange(0, np.pi, np.pi / 4) + rng.normal(0, 0.05):
+                for th in np.linspace(0.15, np.pi - 0.15, 9):
+                    pts.append([np.cos(th), np.sin(th) * np.cos(phi), np.sin(th) * np.sin(phi)])
+        else:
+            rows = int(rng.integers(3, 6))
+            per_row = 36 // rows
+            for phi in np.sort(rng.uniform(0, np.pi, rows)):
+                th0, th1 = rng.uniform(0.1, 0.35, 2)
+                for th in np.linspace(th0, np.pi - th1, per_row):
+                    pts.append([np.cos(th), np.sin(th) * np.cos(phi), np.sin(th) * np.sin(phi)])
         pts = np.array(pts)
         pts[:, 2] = np.abs(pts[:, 2]) + 0.02
         return pts / np.linalg.norm(pts, axis=1, keepdims=True) + rng.normal(0, 0.01, pts.shape)
     if case == "wing":
         a, b, R, k2 = _wing_params()
         pts = []
-        # Three chordwise rows, taps packed towards the leading edge (eta = pi) as practice has it.
-        s = np.linspace(-1, 1, 16, endpoint=False) + 1.0 / 16
-        eta_row = np.pi + np.pi * np.sign(s) * np.abs(s) ** 1.7
-        for y in np.array([-0.6, 0.0, 0.6]) + rng.normal(0, 0.05):
+        if family == "jittered":
+            # Three chordwise rows, taps packed towards the leading edge (eta = pi) as practice has it.
+            s = np.linspace(-1, 1, 16, endpoint=False) + 1.0 / 16
+            eta_row = np.pi + np.pi * np.sign(s) * np.abs(s) ** 1.7
+            stations = np.array([-0.6, 0.0, 0.6]) + rng.normal(0, 0.05)
+        else:
+            rows = int(rng.integers(2, 5))
+            per_row = 48 // rows
+            n_up = int(round(rng.uniform(0.5, 0.65) * per_row))  # often more taps on the suction face
+            power = rng.uniform(1.3, 2.2)  # how hard the rows are packed towards the leading edge
+            s = np.concatenate([-(np.arange(n_up) + 0.5) / n_up, (np.arange(per_row - n_up) + 0.5) / (per_row - n_up)])
+            eta_row = np.pi + np.pi * np.sign(s) * np.abs(s) ** power  # eta in (0, pi): upper face
+            stations = np.sort(rng.uniform(-0.85, 0.85, rows))
+        for y in stations:
             for e in eta_row + rng.normal(0, 0.01, len(eta_row)):
                 pts.append([a * np.cos(e), y, 0.5 + b * np.sin(e)])
         return np.array(pts)
