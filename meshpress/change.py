@@ -211,7 +211,7 @@ def compute_change(body, taps, y_base, y_other, *, err_base: ErrorSources, err_o
                    kernel: str = "auto", base_result=None, other_result=None, field_change=None,
                    base_label="base", other_label="other", regions=None, trend: str | None = "newtonian",
                    orientation: bool = True, orientation_kernel: str = "matern52", stagnation_prior=True,
-                   progress=None) -> ChangeResult:
+                   anisotropy: bool = False, progress=None) -> ChangeResult:
     """Kriging estimate and band of every figure's change ``other - base`` on shared taps.
 
     Parameters
@@ -242,8 +242,9 @@ def compute_change(body, taps, y_base, y_other, *, err_base: ErrorSources, err_o
         Independent regions of the model (:func:`~meshpress.uncertainty.compute_uncertainty`).
     trend : {"newtonian", "normal", None}
         The model's mean (:func:`~meshpress.uncertainty.compute_uncertainty`).
-    orientation, orientation_kernel
-        The normals' factor in the model's correlation and its form (as there).
+    orientation, orientation_kernel, anisotropy
+        The normals' factor in the model's correlation, its form and its
+        streamwise weight (as there).
     stagnation_prior : {"auto", True, False}
         For each configuration's own bands (as there); the change itself is
         modelled with a prior mean of 0.
@@ -263,7 +264,8 @@ def compute_change(body, taps, y_base, y_other, *, err_base: ErrorSources, err_o
     if carrier is None:
         carrier = Carrier(body, n_patches, progress=progress)
     kw = dict(q=q, ref_area=ref_area, carrier=carrier, kernel=kernel, regions=regions, trend=trend,
-              orientation=orientation, orientation_kernel=orientation_kernel, progress=progress)
+              orientation=orientation, orientation_kernel=orientation_kernel, anisotropy=anisotropy,
+              progress=progress)
     if base_result is None:
         base_result = compute_uncertainty(body, taps.with_values(y_base), meas=err_base.measurement(),
                                           stagnation_prior=stagnation_prior, **kw)

@@ -62,7 +62,13 @@ smooth one (the squared exponential's smoothness makes its intervals
 over-confident; Stein, Interpolation of Spatial Data, 1999, ch. 3).
 ``orientation_kernel="auto"`` fits :data:`AUTO_ORIENTATION` and keeps the one
 of highest marginal likelihood, as ``kernel="auto"`` does for the surface
-kernel.  Taps use the
+kernel.  The flow direction may count more than the others: with
+``normal_anisotropy=None`` the chordal distance is taken as
+``sqrt(kappa^2 dn_x^2 + dn_y^2 + dn_z^2)`` with ``kappa`` fitted with the
+rest (automatic relevance determination, Rasmussen and Williams 2006,
+sec. 5.1; a kernel of a linear map of 3-D space, so still positive definite):
+pressure follows the angle between the skin and the oncoming flow (along x)
+more closely than the way the skin faces across it.  Taps use the
 normal ``T n`` of their carrier row (renormalised); the joint covariance of
 taps and nodes is the Schur product of two positive semi-definite matrices.
 
@@ -205,6 +211,28 @@ def orientation_factor(c1, theta, form="se"):
     raise InputError(f"orientation kernel {form!r} is not one of: {', '.join(ORIENTATION_KERNELS)}")
 
 
+def normal_c1(u, v, kappa=1.0):
+    """(p, q) float: half the squared chordal distance between unit normals, ``|n_i - n_j|^2 / 2``.
+
+    With ``kappa`` the streamwise (x) component of the difference counts
+    ``kappa`` times the others (``kappa = 1``: ``1 - n_i . n_j``).  This is the
+    ``c1`` that :func:`orientation_factor` takes.
+
+    Parameters
+    ----------
+    u : (p, 3) float
+    v : (q, 3) float
+        Unit normals.
+    kappa : float
+    """
+    u, v = np.asarray(u, float), np.asarray(v, float)
+    if kappa == 1.0:
+        return np.maximum(1.0 - u @ v.T, 0.0)
+    w = np.array([kappa, 1.0, 1.0])
+    a, b = u * w, v * w
+    return np.maximum(0.5 * ((a**2).sum(axis=1)[:, None] + (b**2).sum(axis=1)[None, :]) - a @ b.T, 0.0)
+
+
 def kernel(r: np.ndarray, name: str = "matern32") -> np.ndarray:
     """Correlation at scaled distance ``r = d / l`` (dimensionless)."""
     if name == "matern32":
@@ -277,6 +305,12 @@ class SurfaceGP:
         needs ``normals``.
     normal_scale : float, optional
         Fix ``theta`` (dimensionless) instead of fitting it.
+    normal_anisotropy : float or None
+        ``kappa``, the weight of the normals' streamwise component in the
+        factor's distance (:func:`normal_c1`): 1 (default) treats every
+        direction alike, None fits it by maximum likelihood, as the ratio of
+        two scales, ``theta`` across the flow and ``theta / kappa`` along it,
+        each within the bounds of ``theta`` (0.1 to 10).
     orientation_kernel : {"se", "matern52", "matern32", "exponential", "auto"}
         Form of the normals' factor (:func:`orientation_factor`); ``auto``
         keeps the best of :data:`AUTO_ORIENTATION` by marginal likelihood.
@@ -305,6 +339,8 @@ class SurfaceGP:
     length_scale_, variance_, nugget_, mean_variance_, nll_ : float
     normal_scale_ : float
         ``theta``; ``inf`` without orientation.
+    normal_anisotropy_ : float
+        ``kappa`` (1 when not fitted).
     orientation_form_ : str or None
         The form of the normals' factor used (None without orientation).
     choice_ : str
@@ -323,10 +359,11 @@ class SurfaceGP:
     def __init__(self, distance, *, kernel: str = "exponential", spectrum=None, length_scale=None, variance=None,
                  nugget=None, mean_variance=None, normals=None, trend_variance=None, groups=None,
                  orientation=False, normal_scale=None, trend=None, orientation_kernel="se", trend_basis="normal",
-                 trend_mean=None, trend_mean_choice=False):
+                 trend_mean=None, trend_mean_choice=False, normal_anisotropy=1.0):
         self.distance = np.asarray(distance, float)
         self.orientation = bool(orientation)
         self.normal_scale = normal_scale
+        self.normal_anisotropy = normal_anisotropy
         forms = list(AUTO_ORIENTATION) if orientation_kernel == "auto" else [orientation_kernel]
         for k in forms:
             if k not in ORIENTATION_KERNELS:
@@ -481,6 +518,7 @@ class SurfaceGP:
         self.length_scale_, self.variance_, self.nugget_ = p["l"], p["s2"], p["nug"]
         self.trend_variance_ = p["tn"]
         self.normal_scale_ = p["th"]
+        self.normal_anisotropy_ = p["ka"]
         self._condition()
         return self
 
@@ -533,6 +571,11 @@ class SurfaceGP:
         fixed = {"l": self.length_scale, "s2": self.variance, "nug": self.nugget,
                  "tn": self.trend_variance if self.TN_ is not None else 0.0,
                  "th": self.normal_scale if self.orientation else np.inf}
+        # kappa is fitted as theta_x = theta / kappa, the factor's scale along the flow: in (theta, kappa) the
+        # likelihood of a field that follows n_x alone runs along a curved ridge (theta and kappa growing
+        # together), where L-BFGS-B stalls; in (theta, theta_x) that ridge is theta -> its bound, theta_x fixed.
+        fit_ka = self.orientation and self.normal_anisotropy is None
+        fixed["tx"] = None if fit_ka else 0.0  # not used when kappa is fixed
         # The nugget is fitted as a fraction of the field variance, at most NUGGET_MAX: left free, a field the
         # kernel cannot follow is "explained" as pure noise, and noise averages out of every integral, so the
         # bands would shrink exactly when the model fits worst.
@@ -541,9 +584,13 @@ class SurfaceGP:
         # at all" with certainty.
         bounds = {"l": np.log(length_bounds), "s2": np.log([1e-4 * scale**2, 1e2 * scale**2]),
                   "nug": np.log([1e-8, NUGGET_MAX]), "tn": np.log([1e-2 * scale**2, 1e2 * scale**2]),
-                  "th": np.log([0.1, 10.0])}
-        free = [k for k in ("l", "s2", "nug", "tn", "th") if fixed[k] is None]
-        C1 = None if not self.orientation else 1.0 - self.tap_normals_ @ self.tap_normals_.T  # (n, n), 0..2
+                  "th": np.log([0.1, 10.0]), "tx": np.log([0.1, 10.0])}
+        free = [k for k in ("l", "s2", "nug", "tn", "th", "tx") if fixed[k] is None]
+        C1 = DX2 = None
+        if self.orientation:
+            nt = self.tap_normals_
+            C1 = normal_c1(nt, nt, 1.0)  # (n, n), 0..2: |dn|^2 / 2
+            DX2 = (nt[:, :1] - nt[:, :1].T) ** 2  # (n, n): the streamwise component's part, dn_x^2
         NN = None if self.TN_ is None else self.TN_ @ self.TN_.T
         Btt = self._tap_mask()
 
@@ -553,6 +600,7 @@ class SurfaceGP:
                 p[k] = float(np.exp(t))
             if fixed["nug"] is None:
                 p["nug"] = p["nug"] * p["s2"]
+            p["ka"] = p["th"] / p["tx"] if fit_ka else (self.normal_anisotropy or 1.0)
             return p
 
         def nll_grad(theta):
@@ -561,8 +609,14 @@ class SurfaceGP:
             R, dR = corr(p["l"])
             R, dR = R * Btt, dR * Btt
             if C1 is not None:
-                F, dF = orientation_factor(C1, p["th"], form)
-                R, dR, dth = R * F, dR * F, R * dF  # dth: d R / d log theta
+                kx = (p["ka"] ** 2 - 1.0) * DX2
+                c1 = C1 + 0.5 * kx  # (kappa^2 dn_x^2 + dn_y^2 + dn_z^2) / 2
+                F, dF = orientation_factor(c1, p["th"], form)
+                # F depends on c1 / theta^2 only, so dF/dc1 = -(dF/dlog theta) / (2 c1), and dc1/dlog kappa =
+                # kappa^2 dn_x^2.
+                with np.errstate(invalid="ignore", divide="ignore"):
+                    dFk = np.where(c1 > 0, -dF * (p["ka"] ** 2 * DX2) / (2.0 * c1), 0.0)
+                R, dR, dth, dka = R * F, dR * F, R * dF, R * dFk  # d R / d log theta, d R / d log kappa
             S = self._tap_cov(p["s2"] * R, p["nug"], p["tn"])
             try:
                 c, low = sla.cho_factor(S, lower=True, check_finite=False)
@@ -583,8 +637,10 @@ class SurfaceGP:
                     g.append(0.5 * tr)
                 elif k == "nug":
                     g.append(0.5 * p["nug"] * np.trace(A))
-                elif k == "th":
-                    g.append(0.5 * np.sum(A * (p["s2"] * dth)))
+                elif k == "th":  # with kappa fitted, theta_x stays: log kappa moves with log theta
+                    g.append(0.5 * np.sum(A * (p["s2"] * (dth + dka if fit_ka else dth))))
+                elif k == "tx":  # log kappa = log theta - log theta_x
+                    g.append(-0.5 * np.sum(A * (p["s2"] * dka)))
                 else:
                     g.append(0.5 * p["tn"] * np.sum(A * NN))
             return f, np.array(g)
@@ -598,7 +654,7 @@ class SurfaceGP:
                 x0 = []
                 for k in free:
                     x0.append({"l": np.log(l0) if l0 else 0.0, "s2": np.log(scale**2),
-                               "nug": np.log(1e-3), "tn": np.log(scale**2), "th": 0.0}[k])
+                               "nug": np.log(1e-3), "tn": np.log(scale**2), "th": 0.0, "tx": 0.0}[k])
                 x0 = np.clip(x0, [bounds[k][0] for k in free], [bounds[k][1] for k in free])
                 r = minimize(nll_grad, x0, jac=True, method="L-BFGS-B",
                              bounds=[tuple(bounds[k]) for k in free], options={"maxiter": 200})
@@ -608,7 +664,7 @@ class SurfaceGP:
         # Too few taps to learn from: documented defaults (a fifth of the body, the data's spread).
         p = {"l": fixed["l"] or 0.2 * dmax, "s2": fixed["s2"] or scale**2, "nug": fixed["nug"] or 1e-4 * scale**2,
              "tn": fixed["tn"] if fixed["tn"] is not None else scale**2,
-             "th": fixed["th"] if fixed["th"] is not None else 1.0}
+             "th": fixed["th"] if fixed["th"] is not None else 1.0, "ka": self.normal_anisotropy or 1.0}
         return p, float("nan")
 
     def _tap_spacing(self, T) -> float:
@@ -654,7 +710,8 @@ class SurfaceGP:
             return 1.0
         u = self.tap_normals_ if rows_taps else self.normals
         v = self.tap_normals_ if cols_taps else self.normals
-        return orientation_factor(1.0 - u @ v.T, self.normal_scale_, self.orientation_form_)[0]
+        return orientation_factor(normal_c1(u, v, self.normal_anisotropy_), self.normal_scale_,
+                                  self.orientation_form_)[0]
 
     def _condition(self):
         """Prior covariance pieces at the fitted values, and the factorised tap covariance.
@@ -818,7 +875,8 @@ class SurfaceGP:
             trend += " about 0 (the taps' likelihood preferred it to a stagnation level)"
         regions = "" if self.groups is None else f", {len(np.unique(self.groups))} independent regions"
         if self.orientation and np.isfinite(self.normal_scale_):
-            regions = f", orientation scale {self.normal_scale_:.2g} ({self.orientation_form_})" + regions
+            ka = "" if self.normal_anisotropy_ == 1.0 else f", streamwise weight {self.normal_anisotropy_:.2g}"
+            regions = f", orientation scale {self.normal_scale_:.2g} ({self.orientation_form_}{ka})" + regions
         return (f"kriging ({self.kernel_} along the surface, length {self.length_scale_:.3g} m, "
                 f"sd {np.sqrt(self.variance_):.3g}, nugget sd {np.sqrt(self.nugget_):.3g}{trend}{regions})")
 

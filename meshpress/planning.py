@@ -150,7 +150,8 @@ def greedy_plan(cov, a, n_add, *, candidates, blocked_from=(), distance=None, mi
 def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrier=None, n_patches=2500,
               q=None, ref_area=None, boxes=(), excluded_faces=None, min_spacing=0.05, length_scale=None,
               kernel="exponential", regions=None, orientation: bool = True, orientation_kernel: str = "matern52",
-              trend: str | None = "newtonian", stagnation_prior=True, progress=None) -> Plan:
+              trend: str | None = "newtonian", stagnation_prior=True, anisotropy: bool = False,
+              progress=None) -> Plan:
     """Propose ``n_add`` tap positions that cut the chosen figures' uncertainty most.
 
     Parameters
@@ -191,6 +192,8 @@ def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrie
     stagnation_prior : {"auto", True, False}
         Centre the Newtonian impact term on full stagnation pressure, as in
         the bands (:func:`~meshpress.uncertainty.compute_uncertainty`).
+    anisotropy : bool
+        Fit the streamwise weight of the normals' factor, as in the bands.
 
     Returns
     -------
@@ -222,6 +225,7 @@ def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrie
     if n_taps >= 3:
         gp = SurfaceGP.on_carrier(carrier, kernel=kernel, length_scale=length_scale, groups=groups, trend=trend,
                                   orientation=orientation, orientation_kernel=orientation_kernel,
+                                  normal_anisotropy=None if anisotropy else 1.0,
                                   **stagnation_params(trend, kind, q, stagnation_prior))
         gp.fit(carrier.points_matrix(taps.points), taps.values)
         cov = gp.posterior_cov()

@@ -374,7 +374,7 @@ def report_numbers(result: UncertaintyResult, figure: str = "CL") -> dict:
 def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | None = None, carrier=None,
                         n_patches: int = 2500, field=None, kernel: str = "auto", length_scale=None,
                         trend: str | None = "newtonian", regions=None, orientation: bool = True,
-                        orientation_kernel: str = "matern52", stagnation_prior=True,
+                        orientation_kernel: str = "matern52", stagnation_prior=True, anisotropy: bool = False,
                         progress=None) -> UncertaintyResult:
     """Kriging estimate and band of every figure.
 
@@ -427,6 +427,10 @@ def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | Non
         ``"auto"`` dropped it on 5 random layouts of 100 and CD's coverage
         fell from 0.90 to 0.88 (docs/uncertainty.md measures all three).
         False for a field of changes.
+    anisotropy : bool
+        In that factor, let the normals' streamwise component count more (or
+        less) than the others, by a weight fitted with the rest
+        (``normal_anisotropy`` of :class:`~meshpress.kriging.SurfaceGP`).
 
     Returns
     -------
@@ -450,6 +454,7 @@ def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | Non
     T = carrier.points_matrix(taps.points)
     gp = SurfaceGP.on_carrier(carrier, kernel=kernel, trend=trend, length_scale=length_scale, groups=groups,
                               orientation=orientation, orientation_kernel=orientation_kernel,
+                              normal_anisotropy=None if anisotropy else 1.0,
                               **stagnation_params(trend, taps.kind, q, stagnation_prior))
     gp.fit(T, taps.values, meas.tap_u**2)
     mean, var, Wk = gp.figures(a)

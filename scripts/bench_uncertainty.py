@@ -21,7 +21,8 @@ exponential, matern32, matern52 (default, as in ``meshpress uncertainty``) or au
 Newtonian impact term on full stagnation pressure (``stagnation_prior``), adding ``_stagnation`` to the name;
 "auto" keeps it or not by marginal likelihood, adding ``_stagnation-auto``); a tenth, "varied" (default) or
 "jittered", the family of practical layouts (truth_cases.practical_points; "jittered" is the one design per body
-that earlier runs used), adding ``_practical-varied``).  Each summary gives the coverage's exact 95 % interval
+that earlier runs used), adding ``_practical-varied``); an eleventh, "on", fits the streamwise weight of the normals' factor
+(``anisotropy``), adding ``_anisotropy``.  Each summary gives the coverage's exact 95 % interval
 (Clopper-Pearson): with 50 layouts a coverage of 0.96 is known only to within about 0.86-1.00.
 """
 
@@ -47,7 +48,7 @@ N_TAPS = {"hemisphere": 36, "wing": 48, "car": 57}
 
 
 def run_case(case, n_layouts, n_patches, rng, kernel="auto", trend=None, regions=None, orientation=False,
-             orientation_kernel="se", stagnation=True, practical="varied"):
+             orientation_kernel="se", stagnation=True, practical="varied", anisotropy=False):
     body, cp, area = getattr(tc, case)()
     area = area or body.frontal_area()
     t0 = time.perf_counter()
@@ -58,6 +59,7 @@ def run_case(case, n_layouts, n_patches, rng, kernel="auto", trend=None, regions
     rows = []
     times = []
     chosen = {}
+    kappas = []
     for kind in ("random", "practical"):
         for i in range(n_layouts):
             if kind == "random":
@@ -71,7 +73,10 @@ def run_case(case, n_layouts, n_patches, rng, kernel="auto", trend=None, regions
             t = time.perf_counter()
             r = compute_uncertainty(body, taps, ref_area=area, meas=meas, carrier=car, field=rbf, kernel=kernel,
                                     trend=trend, regions=regions, orientation=orientation,
-                                    orientation_kernel=orientation_kernel, stagnation_prior=stagnation)
+                                    orientation_kernel=orientation_kernel, stagnation_prior=stagnation,
+                                    anisotropy=anisotropy)
+            if anisotropy:
+                kappas.append(r.gp.normal_anisotropy_)
             chosen[r.gp.kernel_] = chosen.get(r.gp.kernel_, 0) + 1
             if stagnation == "auto":
                 k = "stagnation prior kept" if r.gp.trend_mean_used_ else "stagnation prior dropped"
@@ -81,6 +86,8 @@ def run_case(case, n_layouts, n_patches, rng, kernel="auto", trend=None, regions
                 b = r.band(f)
                 rows.append(dict(layout=kind, figure=f, err=b.value - truth[f], u=b.u,
                                  rbf_err=b.field_value - truth[f]))
+    if kappas:
+        chosen["streamwise weight kappa 10/50/90 %"] = [round(float(k), 2) for k in np.percentile(kappas, [10, 50, 90])]
     return rows, t_carrier, float(np.median(times)), truth, chosen
 
 
@@ -125,11 +132,12 @@ def main():
     okernel = sys.argv[8] if len(sys.argv) > 8 else "matern52"
     stagnation = {"on": True, "off": False, "auto": "auto"}[sys.argv[9] if len(sys.argv) > 9 else "on"]
     practical = sys.argv[10] if len(sys.argv) > 10 else "varied"
+    anisotropy = (sys.argv[11] if len(sys.argv) > 11 else "off") == "on"
     rng = np.random.default_rng(2026)
     report = {}
     for case in cases:
         rows, tc_s, t_med, truth, chosen = run_case(case, n, n_patches, rng, kernel, trend, regions, orientation, okernel,
-                                                   stagnation, practical)
+                                                   stagnation, practical, anisotropy)
         report[case] = dict(kriging=summarise(rows), rbf_with_kriging_band=summarise(rows, "rbf_err"),
                             carrier_s=tc_s, median_band_s=t_med, truth={k: float(v) for k, v in truth.items()},
                             kernels_chosen=chosen)
@@ -144,7 +152,8 @@ def main():
     tag = (("" if regions is None else "_regions-" + regions.replace(";", "+")) + ("_orientation" if orientation else "")
            + ("" if okernel == "se" or not orientation else "-" + okernel)
            + ("" if not stagnation or trend != "newtonian" else "_stagnation" + ("-auto" if stagnation == "auto" else ""))
-           + ("" if practical == "jittered" or cases == ["car"] else "_practical-" + practical))
+           + ("" if practical == "jittered" or cases == ["car"] else "_practical-" + practical)
+           + ("_anisotropy" if anisotropy else ""))
     out = (Path(__file__).resolve().parent
            / f"bench_uncertainty_{n}_{n_patches}_{'-'.join(cases)}_{kernel.replace(',', '+')}_{trend}{tag}.json")
     out.write_text(json.dumps(report, indent=1))
