@@ -260,6 +260,11 @@ def test_cli_uncertainty_runs_and_rejects_bad_accuracy(cli, samples_dir, tmp_pat
     r = cli("uncertainty", *base, "--stagnation-prior", "off", "--json", out2)
     assert r.returncode == 0, r.stderr
     assert "stagnation" not in json.loads(out2.read_text())["uncertainty"]["uncertainty_model"]
+    assert "streamwise weight" not in u["uncertainty_model"]  # off by default
+    out3 = tmp_path / "u_aniso.json"
+    r = cli("uncertainty", *base, "--anisotropy-gp", "on", "--json", out3)
+    assert r.returncode == 0, r.stderr
+    assert "streamwise weight" in json.loads(out3.read_text())["uncertainty"]["uncertainty_model"]
 
 
 def test_regions_make_independent_gps_like_scikit_learn_per_segment():

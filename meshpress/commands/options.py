@@ -58,6 +58,9 @@ def add_gp_orientation_option(g, default: bool, form: str):
     g.add_argument("--orientation-kernel", default=form, choices=("auto",) + ORIENTATION_KERNELS,
                    help=f"form of that fall with the angle (default {form}; auto: the one of se, matern52 and "
                         "matern32 the taps' marginal likelihood prefers; docs/uncertainty.md)")
+    g.add_argument("--anisotropy-gp", default="off", choices=("on", "off"),
+                   help="in that angle, let the normals' component along the flow count more than the others, by a "
+                        "weight fitted to the taps (default off; docs/uncertainty.md measures both)")
 
 
 def add_gp_trend_option(g):

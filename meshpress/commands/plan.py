@@ -115,7 +115,8 @@ def run(args) -> int:
                      min_spacing=spacing, length_scale=ell, q=resolve_q(args.q, speed_mps(args.speed), args.air_density),
                      ref_area=args.ref_area, kernel=args.kernel_gp, regions=args.regions,
                      orientation=args.orientation_gp == "on", orientation_kernel=args.orientation_kernel,
-                     trend=gp_trend(args), stagnation_prior=stagnation_prior(args), progress=progress)
+                     anisotropy=args.anisotropy_gp == "on", trend=gp_trend(args),
+                     stagnation_prior=stagnation_prior(args), progress=progress)
     pts = body.frame.to_mesh(plan.points) if body.frame else plan.points
     existing = set(taps.names) if taps is not None else set()
     names, k = [], 1

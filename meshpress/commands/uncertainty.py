@@ -206,7 +206,8 @@ def run(args) -> int:
     meas = Measurement.build(len(taps), tap_u=tap_u, sensor=sensor, u_p_ref=args.u_p_ref, u_q_rel=u_q_rel)
     gp_kw = dict(q=q, ref_area=loads.ref_area_m2, carrier=carrier, kernel=args.kernel_gp, regions=args.regions,
                  orientation=args.orientation_gp == "on", orientation_kernel=args.orientation_kernel,
-                 trend=gp_trend(args), stagnation_prior=stagnation_prior(args), progress=progress)
+                 anisotropy=args.anisotropy_gp == "on", trend=gp_trend(args),
+                 stagnation_prior=stagnation_prior(args), progress=progress)
     with progress.step("kriging bands"):
         unc = compute_uncertainty(body, taps, meas=meas, field=field, **gp_kw)
     change = None
