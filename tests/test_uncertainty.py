@@ -44,6 +44,23 @@ def fib_points(n, hemisphere=None):
     return p
 
 
+def turning_line(n=61):
+    """A line of ``n`` nodes over 0-2 m whose normal turns through 180 degrees between x = 0.5 and 1.5.
+
+    Returns x (n,), distances (n, n), the normal's angle phi (n,) and unit normals (n, 3) in the x-y plane.
+    """
+    x = np.linspace(0.0, 2.0, n)
+    phi = np.pi * np.clip(x - 0.5, 0, 1)
+    return x, np.abs(x[:, None] - x[None, :]), phi, np.column_stack([np.cos(phi), np.sin(phi), np.zeros_like(x)])
+
+
+def tap_rows(idx, n):
+    """(len(idx), n) float: taps exactly at nodes ``idx`` (one weight of 1 per row)."""
+    T = np.zeros((len(idx), n))
+    T[np.arange(len(idx)), idx] = 1.0
+    return T
+
+
 @pytest.fixture(scope="module")
 def sphere():
     v, f = icosphere(3)
@@ -133,8 +150,7 @@ def test_gp_posterior_matches_scikit_learn_on_a_line():
     d = np.abs(x[:, None] - x[None, :])
     idx = np.array([3, 11, 20, 34, 41, 55, 62, 77])
     y = np.sin(3 * x[idx]) + 0.3 * x[idx]
-    T = np.zeros((len(idx), len(x)))
-    T[np.arange(len(idx)), idx] = 1.0
+    T = tap_rows(idx, len(x))
     for name, nu in (("exponential", 0.5), ("matern32", 1.5)):
         gp = SurfaceGP(d, kernel=name, length_scale=0.4, variance=0.7, nugget=1e-3, mean_variance=4.0).fit(T, y)
         k = ConstantKernel(4.0, "fixed") + ConstantKernel(0.7, "fixed") * Matern(0.4, "fixed", nu=nu)
@@ -166,8 +182,7 @@ def test_ml_fit_matches_scikit_learn_optimum():
     f = np.linalg.cholesky(K) @ rng.normal(size=len(x))
     idx = np.arange(0, 200, 2)
     y = f[idx] + rng.normal(0, 0.05, len(idx))
-    T = np.zeros((len(idx), len(x)))
-    T[np.arange(len(idx)), idx] = 1.0
+    T = tap_rows(idx, len(x))
     gp = SurfaceGP(d, mean_variance=25.0).fit(T, y)
     k = (ConstantKernel(25.0, "fixed") + ConstantKernel(1.0, (1e-3, 1e2)) * Matern(0.5, (1e-2, 30), nu=0.5)
          + WhiteKernel(1e-2, (1e-8, 1.0)))
@@ -279,8 +294,7 @@ def test_regions_make_independent_gps_like_scikit_learn_per_segment():
     groups = (x >= 1.0).astype(int)
     idx = np.array([3, 11, 20, 34, 41, 55, 62, 77])
     y = np.where(groups[idx] == 0, np.sin(3 * x[idx]), 2.0 + x[idx])
-    T = np.zeros((len(idx), len(x)))
-    T[np.arange(len(idx)), idx] = 1.0
+    T = tap_rows(idx, len(x))
     gp = SurfaceGP(d, kernel="exponential", length_scale=0.4, variance=0.7, nugget=1e-3, mean_variance=4.0,
                    groups=groups).fit(T, y)
     mu, var = np.empty(len(x)), np.empty(len(x))
@@ -350,27 +364,29 @@ def test_regions_stop_the_band_leaking_between_plates():
     assert abs(split.value - 2.0) < abs(whole.value - 2.0)
 
 
-@pytest.mark.parametrize("form", ["se", "exponential", "matern32", "matern52"])
-def test_orientation_factor_matches_scikit_learn_kernels_on_a_line(form):
+@pytest.mark.parametrize("form, kappa", [("se", 1.0), ("exponential", 1.0), ("matern32", 1.0), ("matern52", 1.0),
+                                         ("matern52", 2.5)])
+def test_orientation_factor_matches_scikit_learn_kernels_on_a_line(form, kappa):
     # Reference: the GP posterior (Rasmussen and Williams 2006, eqs. 2.23-2.24) with the Gram matrices of
     # scikit-learn's kernels: ConstantKernel + ConstantKernel * Matern(nu=0.5) on the position times a kernel of
     # the unit normal: RBF(theta), because exp(-(1 - n.n') / theta^2) = exp(-|n - n'|^2 / (2 theta^2)) for unit
-    # vectors; Matern(theta, nu=0.5 or 1.5) of the chordal distance |n - n'| for the rougher forms.
+    # vectors; Matern(theta, nu=0.5 or 1.5) of the chordal distance |n - n'| for the rougher forms.  With a
+    # streamwise weight kappa: Matern with one length scale per axis, [theta / kappa, theta, theta], whose distance
+    # sqrt(kappa^2 dn_x^2 + dn_y^2 + dn_z^2) / theta is the factor's (automatic relevance determination, R&W
+    # sec. 5.1).
     from sklearn.gaussian_process.kernels import RBF, Matern
 
+    ls = [0.6 / kappa, 0.6, 0.6]
     ref = {"se": RBF(0.6), "exponential": Matern(0.6, nu=0.5), "matern32": Matern(0.6, nu=1.5),
-           "matern52": Matern(0.6, nu=2.5)}[form]
+           "matern52": Matern(ls, nu=2.5)}[form]
 
-    x = np.linspace(0.0, 2.0, 61)
-    d = np.abs(x[:, None] - x[None, :])
-    phi = np.pi * np.clip(x - 0.5, 0, 1)  # the surface turns through 180 degrees between x = 0.5 and 1.5
-    nrm = np.column_stack([np.cos(phi), np.sin(phi), np.zeros_like(x)])
+    x, d, phi, nrm = turning_line()
     idx = np.array([2, 9, 17, 25, 31, 40, 47, 58])
     y = np.cos(phi[idx]) + 0.2 * x[idx]
-    T = np.zeros((len(idx), len(x)))
-    T[np.arange(len(idx)), idx] = 1.0
+    T = tap_rows(idx, len(x))
     gp = SurfaceGP(d, kernel="exponential", length_scale=0.5, variance=0.7, nugget=1e-3, mean_variance=4.0,
-                   normals=nrm, orientation=True, normal_scale=0.6, orientation_kernel=form).fit(T, y)
+                   normals=nrm, orientation=True, normal_scale=0.6, orientation_kernel=form,
+                   normal_anisotropy=kappa).fit(T, y)
     K = 4.0 + 0.7 * Matern(0.5, nu=0.5)(x[:, None]) * ref(nrm)
     S = K[np.ix_(idx, idx)] + 1e-3 * np.eye(len(idx))
     mu = K[:, idx] @ np.linalg.solve(S, y)
@@ -384,14 +400,10 @@ def test_orientation_factor_matches_scikit_learn_kernels_on_a_line(form):
 def test_orientation_scale_is_fitted_at_the_likelihood_optimum(form):
     # Maximum likelihood (R&W eq. 2.30): at the fitted theta the log likelihood, evaluated directly by a Cholesky
     # factorisation (independent of the fit's analytic gradient), must not rise when theta moves 5 % either way.
-    x = np.linspace(0.0, 2.0, 61)
-    d = np.abs(x[:, None] - x[None, :])
-    phi = np.pi * np.clip(x - 0.5, 0, 1)
-    nrm = np.column_stack([np.cos(phi), np.sin(phi), np.zeros_like(x)])
+    x, d, phi, nrm = turning_line()
     idx = np.arange(1, 61, 3)
     y = np.cos(2 * phi[idx]) + 0.3 * np.sin(3 * x[idx])
-    T = np.zeros((len(idx), len(x)))
-    T[np.arange(len(idx)), idx] = 1.0
+    T = tap_rows(idx, len(x))
     gp = SurfaceGP(d, kernel="exponential", length_scale=0.8, variance=0.5, nugget=1e-4, mean_variance=4.0,
                    normals=nrm, orientation=True, orientation_kernel=form).fit(T, y)
     th = gp.normal_scale_
@@ -416,14 +428,10 @@ def test_orientation_scale_is_fitted_at_the_likelihood_optimum(form):
 def test_orientation_kernel_auto_keeps_the_form_of_highest_likelihood():
     # Type-II maximum likelihood model choice (R&W 2006, sec. 5.4): "auto" fits both forms and keeps the one of the
     # lowest negative log marginal likelihood; its posterior is then that of the form fitted alone.
-    x = np.linspace(0.0, 2.0, 81)
-    d = np.abs(x[:, None] - x[None, :])
-    phi = np.pi * np.clip(x - 0.5, 0, 1)
-    nrm = np.column_stack([np.cos(phi), np.sin(phi), np.zeros_like(x)])
+    x, d, phi, nrm = turning_line(81)
     idx = np.arange(0, 81, 3)
     y = np.abs(np.cos(phi[idx])) ** 0.5 - 0.6 * (phi[idx] > 1.2)  # a cusp and a step in the normal's angle
-    T = np.zeros((len(idx), len(x)))
-    T[np.arange(len(idx)), idx] = 1.0
+    T = tap_rows(idx, len(x))
     kw = dict(kernel="exponential", length_scale=0.8, nugget=1e-4, mean_variance=4.0, normals=nrm, orientation=True)
     auto = SurfaceGP(d, orientation_kernel="auto", **kw).fit(T, y)
     assert set(auto.candidates_) == {"exponential/se", "exponential/matern52", "exponential/matern32"}
@@ -452,14 +460,10 @@ def test_normal_trend_matches_scikit_learn_kernels_on_a_line():
     # (sigma_0 = 0, on the unit normal), posterior by R&W eqs. 2.23-2.24.
     from sklearn.gaussian_process.kernels import DotProduct, Matern
 
-    x = np.linspace(0.0, 2.0, 61)
-    d = np.abs(x[:, None] - x[None, :])
-    phi = np.pi * np.clip(x - 0.5, 0, 1)
-    nrm = np.column_stack([np.cos(phi), np.sin(phi), np.zeros_like(x)])
+    x, d, phi, nrm = turning_line()
     idx = np.array([2, 9, 17, 25, 31, 40, 47, 58])
     y = 0.8 * np.cos(phi[idx]) - 0.3 * np.sin(phi[idx]) + 0.05 * x[idx]
-    T = np.zeros((len(idx), len(x)))
-    T[np.arange(len(idx)), idx] = 1.0
+    T = tap_rows(idx, len(x))
     gp = SurfaceGP(d, kernel="exponential", length_scale=0.5, variance=0.2, nugget=1e-3, mean_variance=4.0,
                    normals=nrm, trend_variance=0.9).fit(T, y)
     K = 4.0 + 0.2 * Matern(0.5, nu=0.5)(x[:, None]) + 0.9 * DotProduct(sigma_0=0.0, sigma_0_bounds="fixed")(nrm)
@@ -485,8 +489,7 @@ def test_stagnation_prior_matches_a_gp_with_a_trend_of_known_prior_mean_on_a_lin
     H = trend_features(nrm, "newtonian")
     idx = np.array([30, 36, 41, 47, 52, 58])  # none on the forward-facing first half
     y = 0.2 - 0.4 * np.sin(phi[idx]) + 0.05 * x[idx]
-    T = np.zeros((len(idx), len(x)))
-    T[np.arange(len(idx)), idx] = 1.0
+    T = tap_rows(idx, len(x))
     b = impact_prior("newtonian", 1.0)
     gp = SurfaceGP(d, kernel="exponential", length_scale=0.5, variance=0.2, nugget=1e-3, mean_variance=4.0,
                    normals=nrm, trend_variance=0.3, trend_basis="newtonian", trend=True, trend_mean=b).fit(T, y)
@@ -611,34 +614,6 @@ def test_importance_is_largest_where_no_tap_is(sphere):
     assert imp[x > 0.3].mean() > 3 * imp[x < -0.3].mean()
 
 
-def test_normal_anisotropy_matches_scikit_learn_anisotropic_matern_on_a_line():
-    # Reference: the GP posterior (R&W eqs. 2.23-2.24) with scikit-learn's Gram matrices: ConstantKernel +
-    # Matern(nu=0.5) of the position times Matern(nu=2.5) of the unit normal with one length scale per axis,
-    # [theta / kappa, theta, theta]: its distance sqrt(kappa^2 dn_x^2 + dn_y^2 + dn_z^2) / theta is the
-    # factor's (automatic relevance determination, R&W sec. 5.1).
-    from sklearn.gaussian_process.kernels import Matern
-
-    x = np.linspace(0.0, 2.0, 61)
-    d = np.abs(x[:, None] - x[None, :])
-    phi = np.pi * np.clip(x - 0.5, 0, 1)
-    nrm = np.column_stack([np.cos(phi), np.sin(phi), np.zeros_like(x)])
-    idx = np.array([2, 9, 17, 25, 31, 40, 47, 58])
-    y = np.cos(phi[idx]) + 0.2 * x[idx]
-    T = np.zeros((len(idx), len(x)))
-    T[np.arange(len(idx)), idx] = 1.0
-    theta, kappa = 0.6, 2.5
-    gp = SurfaceGP(d, kernel="exponential", length_scale=0.5, variance=0.7, nugget=1e-3, mean_variance=4.0,
-                   normals=nrm, orientation=True, normal_scale=theta, orientation_kernel="matern52",
-                   normal_anisotropy=kappa).fit(T, y)
-    K = 4.0 + 0.7 * Matern(0.5, nu=0.5)(x[:, None]) * Matern([theta / kappa, theta, theta], nu=2.5)(nrm)
-    S = K[np.ix_(idx, idx)] + 1e-3 * np.eye(len(idx))
-    mu = K[:, idx] @ np.linalg.solve(S, y)
-    var = np.diag(K) - np.einsum("ij,ji->i", K[:, idx], np.linalg.solve(S, K[idx, :]))
-    np.testing.assert_allclose(gp.node_mean(), mu, atol=1e-8)
-    np.testing.assert_allclose(gp.node_var(), var, atol=1e-8)
-    np.testing.assert_allclose(gp.K_, K, atol=1e-12)
-
-
 def test_normal_anisotropy_is_fitted_at_the_likelihood_optimum():
     # Maximum likelihood (R&W eq. 2.30): the fitted kappa and theta, checked by a direct Cholesky evaluation of
     # the log likelihood (independent of the fit's analytic gradient), which must not rise when either moves
@@ -652,8 +627,7 @@ def test_normal_anisotropy_is_fitted_at_the_likelihood_optimum():
     nrm = np.column_stack([np.cos(phi), np.sin(phi), np.zeros_like(x)])
     idx = np.arange(1, 81, 2)
     y = np.sin(4 * nrm[idx, 0]) + 0.5 * np.sin(2 * nrm[idx, 1])
-    T = np.zeros((len(idx), len(x)))
-    T[np.arange(len(idx)), idx] = 1.0
+    T = tap_rows(idx, len(x))
     gp = SurfaceGP(d, kernel="exponential", length_scale=5.0, variance=0.5, nugget=1e-4, mean_variance=4.0,
                    normals=nrm, orientation=True, orientation_kernel="matern52", normal_anisotropy=None).fit(T, y)
     th, ka = gp.normal_scale_, gp.normal_anisotropy_
