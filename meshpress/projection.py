@@ -155,5 +155,26 @@ def project_taps(body: Body, taps: TapTable, *, max_distance: float = TOL.max_ta
             f"{taps.source}: tap {taps.names[i]!r} is {dist[i] * 1000:.1f} mm from the surface, more than "
             f"the {max_distance * 1000:g} mm allowed (--max-tap-distance){more}; check its coordinates, unit and axes"
         )
+    same = coincident(pts)
+    if same:
+        i, j = same[0]
+        more = f" ({len(same) - 1} more pairs)" if len(same) > 1 else ""
+        raise InputError(
+            f"{taps.source}: taps {taps.names[i]!r} and {taps.names[j]!r} are at the same place on the surface"
+            f"{more}; an interpolated field cannot pass through two readings at one point: check their coordinates, "
+            "or keep one (average their readings)"
+        )
     bary = points_to_barycentric(body.triangles[fc], pts)
     return ProjectedTaps(list(taps.names), raw, pts, fc, bary, dist, np.asarray(taps.values, float), taps.kind)
+
+
+def coincident(points, tol: float = 1e-6) -> list:
+    """Pairs ``(i, j)``, i < j, of points closer than ``tol`` (m), sorted.
+
+    Interpolation needs distinct centres (Wendland, Scattered Data
+    Approximation, 2005, ch. 8): two taps at one place make every
+    interpolating field's system singular, or its solution meaningless.
+    """
+    from scipy.spatial import cKDTree
+
+    return sorted(cKDTree(np.asarray(points, float)).query_pairs(tol))

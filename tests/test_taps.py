@@ -61,7 +61,7 @@ def test_side_selects_the_right_face_of_a_thin_plate(tmp_path):
     box.apply_translation((0, 0, 0.5))
     box.export(tmp_path / "plate.stl")
     body = meshpress.load_body(tmp_path / "plate.stl")
-    pts = np.array([[0.1, 0.1, 0.5], [0.1, 0.1, 0.5], [0.1, 0.1, 0.5]])
+    pts = np.array([[0.1, 0.1, 0.5], [0.1, 0.1, 0.5], [0.2, 0.1, 0.5]])  # "l" and "a" pick one face: apart
     t = read_taps(write_taps(tmp_path / "t.csv", ["u", "l", "a"], pts, [0, 0, 0],
                              extra={"side": ["upper", "lower", "-z"]}))
     pj = meshpress.project_taps(body, t)
@@ -93,7 +93,9 @@ def test_centre_line_taps_fall_back_to_constant_term(tmp_path, small_car):
     sel = np.flatnonzero(np.abs(body.centroids[:, 1]) < 1e-9)
     if len(sel) < 10:  # no face centroid exactly on the plane: use surface points at y = 0
         sel = np.argsort(np.abs(body.centroids[:, 1]))[:30]
-    pts = body.centroids[sel] * [1, 0, 1]
+    # Faces either side of the plane map to the same point: keep one tap per place (two taps at one place with
+    # different readings cannot be interpolated, and are not what this test is about).
+    pts = np.unique(np.round(body.centroids[sel] * [1, 0, 1], 9), axis=0)
     t = read_taps(write_taps(tmp_path / "c.csv", [f"c{i}" for i in range(len(pts))],
                              body.frame.to_mesh(pts), rng.normal(0, 1, len(pts))))
     pj = meshpress.project_taps(body, t, max_distance=0.05)
@@ -112,3 +114,18 @@ def test_rbf_reproduces_linear_field(small_car, tmp_path):
     t = read_taps(write_taps(tmp_path / "l.csv", [f"t{i}" for i in range(40)], body.frame.to_mesh(pts), lin(pts)))
     field = meshpress.make_field("rbf").fit(body, meshpress.project_taps(body, t))
     np.testing.assert_allclose(field.at_points(body.centroids), lin(body.centroids), atol=1e-8)
+
+
+def test_two_taps_at_one_place_with_different_readings_are_named(tmp_path, small_car):
+    # Interpolation needs distinct centres (Wendland, Scattered Data Approximation, 2005, ch. 8): with two taps
+    # at one place scipy's RBF solve either fails (singular) or returns a meaningless interpolant, so the tool
+    # must stop and name the two taps.
+    path, v, f = small_car
+    body = meshpress.load_body(path)
+    rng = np.random.default_rng(4)
+    pts = body.centroids[rng.choice(body.n_faces, 12, replace=False)]
+    pts = np.vstack([pts, pts[3]])
+    vals = rng.normal(0, 1, len(pts))
+    t = read_taps(write_taps(tmp_path / "d.csv", [f"t{i}" for i in range(len(pts))], body.frame.to_mesh(pts), vals))
+    with pytest.raises(InputError, match=r"'t3' and 't12' are at the same place"):
+        meshpress.project_taps(body, t)
