@@ -8,7 +8,8 @@ distances, kriging fit, bands: what ``meshpress uncertainty`` adds to
 ``plan`` command does).  Mesh file reading is not included.
 
 Run: ``python scripts/bench_speed.py [form...]`` (the bands' orientation forms to time in turn on the same body
-and taps, or ``stagnation=on|off|auto`` for the stagnation prior; default the settings ``compute_uncertainty``
+and taps, or ``stagnation=on|off|auto`` for the stagnation prior, or ``anisotropy=on|off`` for the fitted
+streamwise weight; default the settings ``compute_uncertainty``
 uses).
 """
 
@@ -43,6 +44,8 @@ def main():
             kw = {}
         elif form.startswith("stagnation="):
             kw = {"stagnation_prior": {"on": True, "off": False, "auto": "auto"}[form.split("=", 1)[1]]}
+        elif form.startswith("anisotropy="):
+            kw = {"anisotropy": form.split("=", 1)[1] == "on"}
         else:
             kw = {"orientation_kernel": form}
         r = compute_uncertainty(body, taps, ref_area=area, **kw)
