@@ -44,7 +44,7 @@ from meshpress.uncertainty import K95, Measurement, compute_uncertainty, figure_
 
 U_TAP = 0.005  # Cp: about 2.4 Pa at 100 km/h
 FIGS = ("CL", "CD", "CLF", "CLR")
-N_TAPS = {"hemisphere": 36, "wing": 48, "car": 57}
+N_TAPS = {"hemisphere": 36, "wing": 48, "wing_high": 48, "car": 57}
 
 
 def run_case(case, n_layouts, n_patches, rng, kernel="auto", trend=None, regions=None, orientation=False,

@@ -9,7 +9,11 @@
   under the Joukowski map z = zeta + k^2/zeta, so the surface speed is exact in
   closed form [text: Milne-Thomson, Theoretical Hydrodynamics, ch. 6]; the
   section lift is rho U Gamma (Kutta-Joukowski), which the benchmark checks.
-  Open at the tips (Cp is two-dimensional).
+  Open at the tips (Cp is two-dimensional).  Its section's centre is 0.5 m above
+  the ground, between axles at -0.25 and +0.25 m (the quarter and three-quarter
+  chord).
+- ``wing_high``: the same wing 1 m above the ground (a diagnostic: the
+  moments' arms change, the field and the lift do not).
 - ``car``: meshpress.samples.car_body with the invented car_cp field (INVENTED
   known truth), practical layout from scripts/make_samples.py tap_layout.
 
@@ -65,7 +69,7 @@ def _wing_params():
     return a, b, R, k2
 
 
-def wing(n_chord: int = 160, n_span: int = 40):
+def wing(n_chord: int = 160, n_span: int = 40, height: float = 0.5):
     a, b, R, k2 = _wing_params()
     eta = np.linspace(0, 2 * np.pi, n_chord, endpoint=False)
     # cluster points at the leading and trailing edges (eta = pi, 0)
@@ -73,7 +77,7 @@ def wing(n_chord: int = 160, n_span: int = 40):
     xs, zs = a * np.cos(eta), b * np.sin(eta)  # x rearward: trailing edge at +a
     ys = np.linspace(-WING["span"] / 2, WING["span"] / 2, n_span + 1)
     X = np.tile(xs, len(ys))
-    Z = np.tile(zs, len(ys)) + 0.5
+    Z = np.tile(zs, len(ys)) + height
     Y = np.repeat(ys, n_chord)
     v = np.column_stack([X, Y, Z])
     idx = np.arange(len(v)).reshape(len(ys), n_chord)
@@ -81,23 +85,33 @@ def wing(n_chord: int = 160, n_span: int = 40):
     b0, b1 = idx[1:], np.roll(idx[1:], -1, axis=1)
     f = np.concatenate([np.stack([a0, a1, b1], -1).reshape(-1, 3), np.stack([a0, b1, b0], -1).reshape(-1, 3)])
     body = Body(v, f, axles=Axles(-0.25, 0.25))
-    if np.einsum("ij,ij->", body.area_vectors, body.centroids - [0, 0, 0.5]) < 0:
+    if np.einsum("ij,ij->", body.area_vectors, body.centroids - [0, 0, height]) < 0:
         body = Body(v, f[:, ::-1], axles=Axles(-0.25, 0.25))
 
     def cp(points, normals=None):
-        return wing_cp(points)
+        return wing_cp(points, height)
 
     return body, cp, WING["chord"] * WING["span"]
 
 
-def wing_cp(points):
-    """Exact potential-flow Cp on the elliptic wing (x rearward, flow along +x, incidence alpha)."""
+def wing_high():
+    """The wing with its section's centre 1 m above the ground (same field, other moment arms)."""
+    return wing(height=WING_HIGH)
+
+
+WING_HEIGHT = {"wing": 0.5, "wing_high": 1.0}
+WING_HIGH = WING_HEIGHT["wing_high"]
+
+
+def wing_cp(points, height: float = 0.5):
+    """Exact potential-flow Cp on the elliptic wing (x rearward, flow along +x, incidence alpha), its section's
+    centre ``height`` m above the ground."""
     a, b, R, k2 = _wing_params()
     al = np.radians(WING["alpha_deg"])
     p = np.asarray(points, float)
     # Flow comes from -x going +x; with z up, positive incidence tilts the flow upward relative to the chord,
     # i.e. the free stream is U e^{i al} in the (x, z) plane; lift is then +z.
-    eta = np.arctan2((p[:, 2] - 0.5) / b, p[:, 0] / a)
+    eta = np.arctan2((p[:, 2] - height) / b, p[:, 0] / a)
     zeta = R * np.exp(1j * eta)
     gamma = 4 * np.pi * R * np.sin(al)  # Kutta: rear stagnation at eta = 0 (the trailing edge, x = +a)
     # w = U (zeta e^{-i al} + R^2 e^{i al} / zeta) + i Gamma/(2 pi) log zeta; stagnation at zeta = R needs
@@ -210,7 +224,7 @@ def practical_points(case, body, rng, n=None, family="varied"):
         pts = np.array(pts)
         pts[:, 2] = np.abs(pts[:, 2]) + 0.02
         return pts / np.linalg.norm(pts, axis=1, keepdims=True) + rng.normal(0, 0.01, pts.shape)
-    if case == "wing":
+    if case in WING_HEIGHT:
         a, b, R, k2 = _wing_params()
         pts = []
         if family == "jittered":
@@ -228,6 +242,6 @@ def practical_points(case, body, rng, n=None, family="varied"):
             stations = np.sort(rng.uniform(-0.85, 0.85, rows))
         for y in stations:
             for e in eta_row + rng.normal(0, 0.01, len(eta_row)):
-                pts.append([a * np.cos(e), y, 0.5 + b * np.sin(e)])
+                pts.append([a * np.cos(e), y, WING_HEIGHT[case] + b * np.sin(e)])
         return np.array(pts)
     raise ValueError(case)
