@@ -590,7 +590,7 @@ class SurfaceGP:
         if self.orientation:
             nt = self.tap_normals_
             C1 = normal_c1(nt, nt, 1.0)  # (n, n), 0..2: |dn|^2 / 2
-            DX2 = (nt[:, :1] - nt[:, :1].T) ** 2  # (n, n): the streamwise component's part, dn_x^2
+            DX2 = (nt[:, :1] - nt[:, :1].T) ** 2 if fit_ka or self.normal_anisotropy != 1.0 else None  # dn_x^2
         NN = None if self.TN_ is None else self.TN_ @ self.TN_.T
         Btt = self._tap_mask()
 
@@ -609,14 +609,14 @@ class SurfaceGP:
             R, dR = corr(p["l"])
             R, dR = R * Btt, dR * Btt
             if C1 is not None:
-                kx = (p["ka"] ** 2 - 1.0) * DX2
-                c1 = C1 + 0.5 * kx  # (kappa^2 dn_x^2 + dn_y^2 + dn_z^2) / 2
+                c1 = C1 if p["ka"] == 1.0 else C1 + 0.5 * (p["ka"] ** 2 - 1.0) * DX2  # (kappa^2 dn_x^2 + ...) / 2
                 F, dF = orientation_factor(c1, p["th"], form)
-                # F depends on c1 / theta^2 only, so dF/dc1 = -(dF/dlog theta) / (2 c1), and dc1/dlog kappa =
-                # kappa^2 dn_x^2.
-                with np.errstate(invalid="ignore", divide="ignore"):
-                    dFk = np.where(c1 > 0, -dF * (p["ka"] ** 2 * DX2) / (2.0 * c1), 0.0)
-                R, dR, dth, dka = R * F, dR * F, R * dF, R * dFk  # d R / d log theta, d R / d log kappa
+                if fit_ka:
+                    # F depends on c1 / theta^2 only, so dF/dc1 = -(dF/dlog theta) / (2 c1), and dc1/dlog kappa =
+                    # kappa^2 dn_x^2.
+                    with np.errstate(invalid="ignore", divide="ignore"):
+                        dka = R * np.where(c1 > 0, -dF * (p["ka"] ** 2 * DX2) / (2.0 * c1), 0.0)  # dR/dlog kappa
+                R, dR, dth = R * F, dR * F, R * dF  # dth: d R / d log theta
             S = self._tap_cov(p["s2"] * R, p["nug"], p["tn"])
             try:
                 c, low = sla.cho_factor(S, lower=True, check_finite=False)
