@@ -59,6 +59,7 @@ def hemisphere(sub: int = 5):
 
 
 WING = dict(chord=1.0, tc=0.12, span=2.0, alpha_deg=4.0)
+WING_HEIGHT = {"wing": 0.5, "wing_high": 1.0}  # the section's centre above the ground, m, of each wing case
 
 
 def _wing_params():
@@ -69,7 +70,7 @@ def _wing_params():
     return a, b, R, k2
 
 
-def wing(n_chord: int = 160, n_span: int = 40, height: float = 0.5):
+def wing(n_chord: int = 160, n_span: int = 40, height: float = WING_HEIGHT["wing"]):
     a, b, R, k2 = _wing_params()
     eta = np.linspace(0, 2 * np.pi, n_chord, endpoint=False)
     # cluster points at the leading and trailing edges (eta = pi, 0)
@@ -96,14 +97,10 @@ def wing(n_chord: int = 160, n_span: int = 40, height: float = 0.5):
 
 def wing_high():
     """The wing with its section's centre 1 m above the ground (same field, other moment arms)."""
-    return wing(height=WING_HIGH)
+    return wing(height=WING_HEIGHT["wing_high"])
 
 
-WING_HEIGHT = {"wing": 0.5, "wing_high": 1.0}
-WING_HIGH = WING_HEIGHT["wing_high"]
-
-
-def wing_cp(points, height: float = 0.5):
+def wing_cp(points, height: float = WING_HEIGHT["wing"]):
     """Exact potential-flow Cp on the elliptic wing (x rearward, flow along +x, incidence alpha), its section's
     centre ``height`` m above the ground."""
     a, b, R, k2 = _wing_params()
