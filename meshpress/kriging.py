@@ -157,6 +157,9 @@ def stagnation_value(kind, q=None):
     return 1.0 if kind == "cp" else (None if q is None else float(q))
 
 
+STAGNATION_SETTINGS = {"on": True, "off": False, "auto": "auto"}  # a setting's word -> the models' ``prior``
+
+
 def stagnation_params(trend, kind, q, prior) -> dict:
     """The :class:`SurfaceGP` arguments ``trend_mean`` and ``trend_mean_choice`` of a stagnation prior setting.
 

@@ -25,6 +25,7 @@ import numpy as np
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 import truth_cases as tc  # noqa: E402
 
+from meshpress.kriging import STAGNATION_SETTINGS  # noqa: E402
 from meshpress.planning import plan_taps  # noqa: E402
 from meshpress.uncertainty import compute_uncertainty  # noqa: E402
 
@@ -43,7 +44,7 @@ def main():
         if form is None:
             kw = {}
         elif form.startswith("stagnation="):
-            kw = {"stagnation_prior": {"on": True, "off": False, "auto": "auto"}[form.split("=", 1)[1]]}
+            kw = {"stagnation_prior": STAGNATION_SETTINGS[form.split("=", 1)[1]]}
         elif form.startswith("anisotropy="):
             kw = {"anisotropy": form.split("=", 1)[1] == "on"}
         else:

@@ -39,6 +39,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 import truth_cases as tc  # noqa: E402
 
 from meshpress.fields import make_field  # noqa: E402
+from meshpress.kriging import STAGNATION_SETTINGS  # noqa: E402
 from meshpress.patches import Carrier  # noqa: E402
 from meshpress.uncertainty import K95, Measurement, compute_uncertainty, figure_face_weights  # noqa: E402
 
@@ -130,7 +131,7 @@ def main():
     regions = None if regions == "none" else regions
     orientation = (sys.argv[7] if len(sys.argv) > 7 else "off") == "on"
     okernel = sys.argv[8] if len(sys.argv) > 8 else "matern52"
-    stagnation = {"on": True, "off": False, "auto": "auto"}[sys.argv[9] if len(sys.argv) > 9 else "on"]
+    stagnation = STAGNATION_SETTINGS[sys.argv[9] if len(sys.argv) > 9 else "on"]
     practical = sys.argv[10] if len(sys.argv) > 10 else "varied"
     anisotropy = (sys.argv[11] if len(sys.argv) > 11 else "off") == "on"
     rng = np.random.default_rng(2026)

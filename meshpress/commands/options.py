@@ -83,8 +83,10 @@ def add_stagnation_option(g):
 
 def stagnation_prior(args, default=True):
     """``--stagnation-prior`` as the models take it: "auto", True or False (``default`` when not given)."""
+    from ..kriging import STAGNATION_SETTINGS
+
     v = getattr(args, "stagnation_prior", None)
-    return default if v is None else {"on": True, "off": False, "auto": "auto"}[v]
+    return default if v is None else STAGNATION_SETTINGS[v]
 
 
 def gp_trend(args):
