@@ -106,5 +106,10 @@ def test_cli_plan_writes_mesh_unit_csv_and_rejects_bad_figures(cli, tmp_path):
     # on the sphere of radius 1000 mm, in the mesh's own unit
     np.testing.assert_allclose(np.linalg.norm(pts - m.vertices.mean(axis=0), axis=1), 1000.0, rtol=0.02)
     assert png.stat().st_size > 10_000
+    # The table: one row per figure planned for, u after <= u now (adding taps cannot raise a posterior variance).
+    table = {ln.split()[0]: [float(v) for v in ln.split()[1:4]] for ln in r.stdout.splitlines()
+             if ln.split() and ln.split()[0] in ("CL", "CLR")}
+    assert set(table) == {"CL", "CLR"} and "sampling part" in r.stdout
+    assert all(after <= now for now, after, _ in table.values())
     r = cli("plan", mesh, "--figures", "CL,XYZ", "--quiet", "--out", tmp_path / "x.csv")
     assert r.returncode == 2 and r.stderr.startswith("meshpress: error: --figures")

@@ -143,8 +143,9 @@ def run(args) -> int:
 
 def format_plan(plan, fitted: bool) -> str:
     unit = "" if fitted else " (relative units: no readings to fit, or no --q/--speed for Pa readings)"
-    lines = ["meshpress plan: greedy reduction of the summed relative posterior variance", "",
-             f"  {'figure':<8}{'u now':>10}{'u after':>10}{'ratio':>8}   sampling part{unit}"]
+    lines = ["meshpress plan: greedy reduction of the summed relative posterior variance",
+             f"u: the sampling part of each figure's standard uncertainty{unit}", "",
+             f"  {'figure':<8}{'u now':>10}{'u after':>10}{'ratio':>8}"]
     for k, n in enumerate(plan.names):
         r = plan.u_after[k] / plan.u_before[k] if plan.u_before[k] > 0 else float("nan")
         lines.append(f"  {n:<8}{plan.u_before[k]:>10.4f}{plan.u_after[k]:>10.4f}{r:>8.2f}")
