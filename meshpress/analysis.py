@@ -149,10 +149,10 @@ def resolve_q(q=None, speed=None, air_density=None) -> float | None:
         raise InputError("give --q or --speed, not both")
     if speed is not None:
         if speed <= 0:
-            raise InputError(f"--speed must be positive, got {speed:g}")
+            raise InputError(f"--speed must be positive, got {speed:g} m/s")
         rho = ISA_RHO if air_density is None else air_density
         if not rho > 0:
-            raise InputError(f"--air-density must be positive, got {rho:g}")
+            raise InputError(f"--air-density must be positive, got {rho:g} kg/m3")
         return dynamic_pressure(rho, speed)
     return q
 
