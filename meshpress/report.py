@@ -153,7 +153,7 @@ def missing_libraries() -> list[str]:
 
 
 def write_report(run, out_dir, *, protect=(), progress=None, title=None, demo_note=None, images=True,
-                 sections=(), extra_images=None, **picture_kw) -> ReportFiles:
+                 sections=(), extra_images=None, json_extra=None, **picture_kw) -> ReportFiles:
     """Write the report folder (see the module docstring).
 
     Parameters
@@ -176,6 +176,8 @@ def write_report(run, out_dir, *, protect=(), progress=None, title=None, demo_no
         (e.g. :func:`meshpress.bandreport.bands_section_html`).
     extra_images : dict, optional
         name -> PNG bytes written under ``images/`` too.
+    json_extra : dict, optional
+        Further top-level keys of ``loads.json`` (e.g. ``{"uncertainty": ...}``).
     **picture_kw
         Passed to :func:`report_pictures` (``views``, ``view_size``, ``tap_names``, ``arrows``, ``quantity``).
     """
@@ -201,7 +203,7 @@ def write_report(run, out_dir, *, protect=(), progress=None, title=None, demo_no
                         notes=pics["notes"])
     step = progress.step if progress else _null_step
     with step("writing report files"):
-        write_json(result, files.json, protect=protect)
+        write_json({**result.to_dict(), **json_extra} if json_extra else result, files.json, protect=protect)
         write_body(files.body, body, result.face_values, taps, result.value_kind, q=result.q_Pa,
                    p_ref=result.p_ref, protect=protect)
         write_tap_csv(files.taps, rows, protect=protect)

@@ -136,11 +136,12 @@ def test_loads_does_not_import_plotting_libraries(sample):
 
 
 def test_demo_runs(tmp_path):
-    r = run_cli("demo", "--out", tmp_path / "demo", "--quiet", "--no-report")  # the report: test_report.py
+    # the report and the bands: test_report.py
+    r = run_cli("demo", "--out", tmp_path / "demo", "--quiet", "--no-report", "--no-bands")
     assert r.returncode == 0, r.stderr
-    assert "INVENTED DEMO DATA" in r.stdout
+    assert "INVENTED DEMO DATA" in r.stdout and "95 % interval" not in r.stdout
     d = json.loads((tmp_path / "demo" / "loads.json").read_text())
-    assert d["CL"] is not None and d["front_share"] is not None
+    assert d["CL"] is not None and d["front_share"] is not None and "uncertainty" not in d
 
 
 @pytest.mark.slow

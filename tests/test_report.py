@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import base64
 import io
+import json
 import re
 import subprocess
 from pathlib import Path
@@ -152,8 +153,19 @@ def test_demo_writes_the_report(tmp_path, cli):
     assert r.returncode == 0, r.stderr
     page = (tmp_path / "demo" / "report.html").read_text()
     assert "INVENTED DEMO DATA" in page and "Caution." in page
-    for name in ("loads.json", "body_field.vtp", "taps.csv"):
+    for name in ("loads.json", "body_field.vtp", "taps.csv", "images/map_CL.png"):
         assert (tmp_path / "demo" / name).is_file()
+    # The demo shows the bands too: in the text, the report and loads.json (which the report writes).
+    assert "95 % interval" in r.stdout and "How sure is the number" in page
+    d = json.loads((tmp_path / "demo" / "loads.json").read_text())
+    u = d["uncertainty"]
+    for f in ("CL", "CLF", "CLR", "CD"):
+        # 95 % interval of a normal distribution: value +/- 1.96 u (GUM, JCGM 100:2008, G.3)
+        assert u[f + "_lo95"] == pytest.approx(u[f] - 1.96 * u[f + "_u"], abs=1e-3 * u[f + "_u"])
+        assert u[f + "_hi95"] == pytest.approx(u[f] + 1.96 * u[f + "_u"], abs=1e-3 * u[f + "_u"])
+        # the field column is the loads' own figure (the same taps, the same field method)
+        assert u["uncertainty_budget"][f]["field_value"] == pytest.approx(d[f], rel=1e-9)
+        assert u["uncertainty_budget"][f]["measurement_u"] > 0  # the demo states a sensor accuracy
 
 
 @pytest.mark.slow

@@ -599,6 +599,9 @@ def test_cli_uncertainty_report_map_and_spread(cli, samples_dir, tmp_path):
     assert "Where unknown pressure matters most for CLR" in page
     spread = json.loads(out.read_text())["uncertainty"]["method_spread"]
     assert spread["_methods"] == ["rbf", "nearest"] and spread["CL"] >= 0
+    # the report folder's loads.json carries the same bands as --json
+    in_report = json.loads((tmp_path / "rep" / "loads.json").read_text())["uncertainty"]
+    assert in_report == json.loads(out.read_text())["uncertainty"]
     assert (tmp_path / "rep" / "images" / "map_CLR.png").exists()
 
 

@@ -9,6 +9,9 @@ from ..errors import InputError
 #: How the bundled sample was made (see scripts/make_samples.py): mm, y up, forward -z.
 DEMO_SETTINGS = dict(length_unit="mm", up="+y", forward="-z", front_axle=-250.0, rear_axle=2350.0)
 DEMO_SPEED_KMH = 100.0
+#: Stated accuracy of the demo's (invented) pressure sensors, Pa: the sample readings carry 2 Pa of noise
+#: (scripts/make_samples.py), a rectangular +/- 3.5 Pa has a standard uncertainty of 2.0 Pa (GUM 4.3.7).
+DEMO_SENSOR_PA = 3.5
 
 
 def sample_dir() -> Path:
@@ -23,10 +26,12 @@ def sample_dir() -> Path:
 def add_parser(sub):
     p = sub.add_parser("demo", help="run the whole job on the bundled sample body and taps (invented data)",
                        description="Load the bundled sample coupe (invented demo data), put its 57 taps on it, "
-                                   "build the pressure field and print the loads; write the JSON and a report (report.html) to --out.")
+                                   "build the pressure field and print the loads with their bands (as 'meshpress "
+                                   "uncertainty'); write the JSON and a report (report.html) to --out.")
     p.add_argument("--out", default="meshpress-demo", metavar="DIR", help="output folder (default meshpress-demo)")
     p.add_argument("--scan", action="store_true", help="use the scan-like sample (open underbody, holes, noise)")
     p.add_argument("--no-report", action="store_true", help="skip the HTML report and pictures (faster)")
+    p.add_argument("--no-bands", action="store_true", help="skip the uncertainty bands (faster)")
     p.add_argument("--quiet", action="store_true", help="no progress display")
     p.set_defaults(run=run)
     return p
@@ -47,9 +52,23 @@ def run(args) -> int:
     run = run_loads_parts(mesh, taps, q=q, progress=progress, **DEMO_SETTINGS)
     result = run.result
     print(format_result(result))
+    unc = None
+    if not args.no_bands:
+        from ..uncertainty import Measurement, compute_uncertainty, sensor_u
+        from .uncertainty import format_bands
+
+        meas = Measurement.build(len(run.taps), sensor=sensor_u(DEMO_SENSOR_PA))
+        with progress.step("kriging bands"):
+            unc = compute_uncertainty(run.body, run.taps, q=q, ref_area=result.ref_area_m2, meas=meas,
+                                      field=run.field, progress=progress)
+        print()
+        print(format_bands(unc, run.field.describe()))
+        print(f"  (demo: sensors stated at +/- {DEMO_SENSOR_PA:g} Pa; the same bands with your own data: meshpress "
+              "uncertainty --help)")
     out = Path(args.out)
     out.mkdir(parents=True, exist_ok=True)
-    write_json(result, out / "loads.json")
+    bands = {"uncertainty": unc.to_dict()} if unc is not None else {}
+    write_json({**result.to_dict(), **bands}, out / "loads.json", protect=(mesh, taps))
     print(f"\n  wrote {out / 'loads.json'}")
     if not args.no_report:
         from ..report import missing_libraries, write_report
@@ -58,9 +77,19 @@ def run(args) -> int:
             print(f"  no report: it needs {', '.join(missing_libraries())} (pip install {' '.join(missing_libraries())})")
             return 0
 
+        sections, extra = (), None
+        if unc is not None:
+            from ..bandreport import bands_section_html, importance_png
+
+            with progress.step("rendering the map"):
+                png = importance_png(unc, run.body, run.taps, "CL")
+            sections = [("How sure is the number", bands_section_html(unc, field_name=run.field.describe(),
+                                                                      map_png=png, map_figure="CL"))]
+            extra = {"map_CL": png}
         files = write_report(run, out, protect=(mesh, taps), progress=progress,
                              title=f"meshpress demo: {mesh.name}",
                              demo_note="INVENTED DEMO DATA: a made-up coupe and made-up readings, to show what "
-                                       "meshpress does. Not a measurement of any car.")
+                                       "meshpress does. Not a measurement of any car.",
+                             sections=sections, extra_images=extra, json_extra=bands)
         print(f"  wrote {files.html} (open it in a browser) and the files beside it")
     return 0

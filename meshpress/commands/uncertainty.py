@@ -280,7 +280,9 @@ def run(args) -> int:
                                       map_figure=args.map_figure)
             files = write_report(LoadRun(body, taps, field, loads), args.report, protect=inputs, progress=progress,
                                  sections=[("How sure is the number", html)],
-                                 extra_images={f"map_{args.map_figure}": png})
+                                 extra_images={f"map_{args.map_figure}": png},
+                                 json_extra={"uncertainty": {**unc.to_dict(),
+                                                             **({"method_spread": spread} if spread else {})}})
             print(f"  wrote {files.html}")
     return 0
 
