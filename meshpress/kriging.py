@@ -60,7 +60,7 @@ to the sphere, so positive definite; Gneiting 2013): less smooth in the
 normal, so a field that turns sharply round a leading edge is not taken for a
 smooth one (the squared exponential's smoothness makes its intervals
 over-confident; Stein, Interpolation of Spatial Data, 1999, ch. 3).
-``orientation_kernel="auto"`` fits :data:`AUTO_ORIENTATION` and keeps the one
+``orientation_kernel="auto"`` fits :data:`~meshpress.gpkernels.AUTO_ORIENTATION` and keeps the one
 of highest marginal likelihood, as ``kernel="auto"`` does for the surface
 kernel.  The flow direction may count more than the others: with
 ``normal_anisotropy=None`` the chordal distance is taken as
@@ -95,178 +95,11 @@ import scipy.linalg as sla
 
 from .errors import InputError
 
-DISTANCE_KERNELS = ("exponential", "matern32")
-SPECTRAL_KERNELS = {"lb-matern12": 0.5, "lb-matern32": 1.5, "lb-matern52": 2.5, "lb-heat": np.inf}
-KERNELS = DISTANCE_KERNELS + tuple(SPECTRAL_KERNELS)
-AUTO_KERNELS = ("exponential",) + tuple(SPECTRAL_KERNELS)  # candidates of kernel="auto"
+from .gpkernels import (AUTO_KERNELS, AUTO_ORIENTATION, DISTANCE_KERNELS, KERNELS, ORIENTATION_KERNELS,
+                        SPECTRAL_KERNELS, kernel, kernel_names, normal_c1, orientation_factor, spectral_density)
+from .gptrend import TRENDS, trend_features
+
 NUGGET_MAX = 0.1  # largest fitted nugget, as a fraction of the field variance
-ORIENTATION_KERNELS = ("se", "exponential", "matern32", "matern52")  # forms of the normals' factor (orientation_factor)
-AUTO_ORIENTATION = ("se", "matern52", "matern32")  # candidates of orientation_kernel="auto"
-TRENDS = ("normal", "newtonian")  # trend bases (trend_features)
-
-
-def trend_features(normals, basis="normal"):
-    """(n, p) float: the trend's basis functions of the unit normals.
-
-    ``"normal"``: the normal itself (p = 3), a mean linear in the way the
-    skin faces.  ``"newtonian"``: ``max(-n_x, 0)^2`` and ``max(n_x, 0)``
-    (p = 2): the impact pressure of Newton's sine-squared law on skin facing
-    the flow (the oncoming flow runs along +x; Cp = Cp_max cos^2 of the angle
-    between the normal and the oncoming flow, Lees 1955, "modified Newtonian"
-    theory; Anderson, Hypersonic and High-Temperature Gas Dynamics, ch. 3),
-    and a level on rear-facing skin, where a bluff body's base sits in a
-    separated wake of nearly uniform pressure (Hoerner, Fluid-Dynamic Drag,
-    1965, ch. 3).  Both enter with coefficients of prior variance ``t^2``
-    fitted to the taps, so they are a shape the data may use, not a value
-    imposed.
-    """
-    n = np.asarray(normals, float)
-    if basis == "normal":
-        return n
-    if basis == "newtonian":
-        return np.column_stack([np.clip(-n[:, 0], 0.0, None) ** 2, np.clip(n[:, 0], 0.0, None)])
-    raise InputError(f"trend basis must be one of {', '.join(TRENDS)}, got {basis!r}")
-
-
-def impact_prior(basis, stagnation):
-    """Prior mean of the trend's coefficients: Newton's impact term at full stagnation pressure.
-
-    Parameters
-    ----------
-    basis : {"newtonian", "normal"}
-        The trend basis (:func:`trend_features`).
-    stagnation : float
-        Stagnation pressure in the taps' unit: Cp = 1 in incompressible flow
-        (Bernoulli, with Cp referred to the free stream's static and dynamic
-        pressure), or q in Pa.
-
-    Returns
-    -------
-    (p,) float or None
-        ``(stagnation, 0)`` for the Newtonian basis (the impact column at the
-        modified-Newtonian maximum, Lees 1955; no prior level on the base);
-        None for other bases, which have no such law.
-    """
-    if basis != "newtonian" or stagnation is None:
-        return None
-    return np.array([float(stagnation), 0.0])
-
-
-def stagnation_value(kind, q=None):
-    """Stagnation pressure in the taps' unit: 1 for Cp, ``q`` for Pa (None when ``q`` is not known)."""
-    return 1.0 if kind == "cp" else (None if q is None else float(q))
-
-
-STAGNATION_SETTINGS = {"on": True, "off": False, "auto": "auto"}  # a setting's word -> the models' ``prior``
-
-
-def stagnation_params(trend, kind, q, prior) -> dict:
-    """The :class:`SurfaceGP` arguments ``trend_mean`` and ``trend_mean_choice`` of a stagnation prior setting.
-
-    Parameters
-    ----------
-    trend : str or None
-        The trend basis (only ``"newtonian"`` has a prior mean).
-    kind : {"cp", "p"}
-        The taps' unit; ``q`` (Pa or None) gives the level of Pa readings.
-    prior : {True, False, "auto"}
-        On, off, or kept by marginal likelihood.
-    """
-    stag = stagnation_value(kind, q) if prior else None
-    return {"trend_mean": impact_prior(trend, stag), "trend_mean_choice": prior == "auto"}
-
-
-def orientation_factor(c1, theta, form="se"):
-    """The normals' factor and its derivative in ``log theta``.
-
-    Parameters
-    ----------
-    c1 : array of float
-        ``1 - n_i . n_j`` (0 to 2) for unit normals; the chordal distance
-        between them is ``r = sqrt(2 c1)``.
-    theta : float
-        Scale (dimensionless).
-    form : {"se", "exponential", "matern32", "matern52"}
-        ``exp(-c1 / theta^2)`` (squared exponential of ``r / (sqrt(2) theta)``),
-        ``exp(-r / theta)``, or the Matérn forms of smoothness 3/2 and 5/2 of
-        ``r / theta`` (Rasmussen and Williams 2006, eq. 4.17).
-        Each is a kernel of points in 3-D space restricted to the unit sphere,
-        so positive definite there (Gneiting, Bernoulli 19, 2013, sec. 4).
-
-    Returns
-    -------
-    F, dF : arrays like ``c1``
-    """
-    if form == "se":
-        F = np.exp(-c1 / theta**2)
-        return F, F * (2.0 * c1 / theta**2)
-    r = np.sqrt(np.maximum(2.0 * c1, 0.0)) / theta
-    if form == "exponential":
-        F = np.exp(-r)
-        return F, F * r
-    if form == "matern32":
-        e = np.exp(-np.sqrt(3.0) * r)
-        return (1.0 + np.sqrt(3.0) * r) * e, 3.0 * r**2 * e
-    if form == "matern52":
-        s5 = np.sqrt(5.0) * r
-        e = np.exp(-s5)
-        return (1.0 + s5 + 5.0 * r**2 / 3.0) * e, (5.0 / 3.0) * r**2 * (1.0 + s5) * e
-    raise InputError(f"orientation kernel {form!r} is not one of: {', '.join(ORIENTATION_KERNELS)}")
-
-
-def normal_c1(u, v, kappa=1.0):
-    """(p, q) float: half the squared chordal distance between unit normals, ``|n_i - n_j|^2 / 2``.
-
-    With ``kappa`` the streamwise (x) component of the difference counts
-    ``kappa`` times the others (``kappa = 1``: ``1 - n_i . n_j``).  This is the
-    ``c1`` that :func:`orientation_factor` takes.
-
-    Parameters
-    ----------
-    u : (p, 3) float
-    v : (q, 3) float
-        Unit normals.
-    kappa : float
-    """
-    u, v = np.asarray(u, float), np.asarray(v, float)
-    if kappa == 1.0:
-        return np.maximum(1.0 - u @ v.T, 0.0)
-    w = np.array([kappa, 1.0, 1.0])
-    a, b = u * w, v * w
-    return np.maximum(0.5 * ((a**2).sum(axis=1)[:, None] + (b**2).sum(axis=1)[None, :]) - a @ b.T, 0.0)
-
-
-def kernel(r: np.ndarray, name: str = "matern32") -> np.ndarray:
-    """Correlation at scaled distance ``r = d / l`` (dimensionless)."""
-    if name == "matern32":
-        s = np.sqrt(3.0) * r
-        return (1.0 + s) * np.exp(-s)
-    if name == "exponential":
-        return np.exp(-r)
-    raise InputError(f"kernel {name!r} is not one of: {', '.join(DISTANCE_KERNELS)}")
-
-
-def spectral_density(lam: np.ndarray, length_scale: float, nu: float) -> np.ndarray:
-    """Matérn spectral weights ``(2 nu / l^2 + lambda)^(-nu - 1)`` on a 2-D surface.
-
-    Parameters
-    ----------
-    lam : (k,) float
-        Laplace-Beltrami eigenvalues, 1/m2 (>= 0).
-    length_scale : float
-        m.
-    nu : float
-        Smoothness (0.5, 1.5, 2.5); ``inf`` gives the limit, the heat kernel
-        ``exp(-l^2 lambda / 2)`` (the surface's squared-exponential kernel).
-    """
-    if np.isinf(nu):
-        return np.exp(-0.5 * length_scale**2 * lam)
-    return (2.0 * nu / length_scale**2 + lam) ** (-nu - 1.0)
-
-
-def kernel_names(kernel: str) -> list:
-    """The candidate kernels a ``kernel`` argument names: ``"auto"``, one name, or several comma separated."""
-    return list(AUTO_KERNELS) if kernel == "auto" else [k.strip() for k in kernel.split(",")]
 
 
 class SurfaceGP:
@@ -279,8 +112,8 @@ class SurfaceGP:
         Used by the distance kernels, and by every kernel for the length
         scale's bounds.
     kernel : str
-        One of :data:`KERNELS`; several, comma separated, to keep the one of
-        best marginal likelihood; or ``"auto"`` for :data:`AUTO_KERNELS`
+        One of :data:`~meshpress.gpkernels.KERNELS`; several, comma separated, to keep the one of
+        best marginal likelihood; or ``"auto"`` for :data:`~meshpress.gpkernels.AUTO_KERNELS`
         (those the inputs allow).
     spectrum : (lam, phi, area), optional
         Laplace-Beltrami eigenvalues ``(k,)`` 1/m2, mass-orthonormal
@@ -316,20 +149,20 @@ class SurfaceGP:
         each within the bounds of ``theta`` (0.1 to 10).
     orientation_kernel : {"se", "matern52", "matern32", "exponential", "auto"}
         Form of the normals' factor (:func:`orientation_factor`); ``auto``
-        keeps the best of :data:`AUTO_ORIENTATION` by marginal likelihood.
+        keeps the best of :data:`~meshpress.gpkernels.AUTO_ORIENTATION` by marginal likelihood.
         (``compute_uncertainty``, ``compute_change`` and ``plan_taps``
         default to ``matern52``; this class to ``se``.)
     trend : bool, optional
         Use ``normals`` for the trend; default: yes unless ``orientation``.
     trend_basis : {"normal", "newtonian"}
         The trend's columns as functions of the normals
-        (:func:`trend_features`): the normal itself, or Newton's impact
+        (:func:`~meshpress.gptrend.trend_features`): the normal itself, or Newton's impact
         pressure on forward-facing skin and a base level on rear-facing skin.
     trend_mean : (p,) float, optional
         Prior mean of the trend's coefficients ``beta`` (value unit), default
         0: ``beta ~ N(trend_mean, t^2 I)``.  The model's prior mean is then
         ``h(n) . trend_mean`` and the taps are fitted as departures from it
-        (e.g. :func:`impact_prior`).
+        (e.g. :func:`~meshpress.gptrend.impact_prior`).
     trend_mean_choice : bool
         Fit the model with ``trend_mean`` and with a prior mean of 0, and
         keep the one of higher marginal likelihood (``trend_mean_used_``,

@@ -182,7 +182,7 @@ def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrie
         The normals' factor in the model's correlation, as in the bands
         (needs three taps to fit it; docs/uncertainty.md measures both).
     orientation_kernel : str
-        Its form (:func:`~meshpress.kriging.orientation_factor`); default
+        Its form (:func:`~meshpress.gpkernels.orientation_factor`); default
         ``matern52``, as in the bands, so the plan's "u after" is the bands'
         model (docs/uncertainty.md measures ``se`` too).
     trend : {"newtonian", "normal", None}
@@ -199,7 +199,8 @@ def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrie
     -------
     Plan
     """
-    from .kriging import SurfaceGP, stagnation_params
+    from .gptrend import stagnation_params
+    from .kriging import SurfaceGP
     from .patches import Carrier
     from .projection import nearest_on_faces
     from .uncertainty import figure_face_weights
@@ -232,8 +233,9 @@ def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrie
         noise = gp.nugget_
         blocked = carrier.nearest_vertex(taps.points)
     else:
-        from .kriging import DISTANCE_KERNELS, same_region
-        from .kriging import kernel as kfun
+        from .gpkernels import DISTANCE_KERNELS
+        from .gpkernels import kernel as kfun
+        from .kriging import same_region
 
         ell = length_scale or 0.2 * float(carrier.distance.max())
         name = kernel if kernel in DISTANCE_KERNELS else "exponential"

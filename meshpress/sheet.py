@@ -512,7 +512,7 @@ def _bands(cx, d) -> BandSettings:
     if isinstance(patches, bool) or not isinstance(patches, int) or patches < 50:
         raise cx.err(f"{where}.patches", f"{patches!r} must be a whole number >= 50")
     kernel = _string(cx, d, "kernel", where, default="auto")
-    from .kriging import KERNELS  # the kriging correlations, as 'meshpress uncertainty --kernel-gp'
+    from .gpkernels import KERNELS  # the kriging correlations, as 'meshpress uncertainty --kernel-gp'
 
     if kernel not in ("auto",) + KERNELS:
         raise cx.err(f"{where}.kernel", f"{kernel!r} is not one of: {', '.join(('auto',) + KERNELS)}")

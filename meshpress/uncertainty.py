@@ -398,7 +398,7 @@ def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | Non
     kernel, length_scale
         Passed to :class:`~meshpress.kriging.SurfaceGP`.
     trend : {"newtonian", "normal", None}
-        The field's mean beyond a constant (:func:`~meshpress.kriging.trend_features`):
+        The field's mean beyond a constant (:func:`~meshpress.gptrend.trend_features`):
         ``"newtonian"`` (default) Newton's impact pressure on skin facing the
         flow and a level on rear-facing skin, ``"normal"`` a term linear in
         the surface normal, ``None`` none; coefficients of fitted prior
@@ -412,14 +412,14 @@ def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | Non
         at a scale fitted with the rest (:class:`~meshpress.kriging.SurfaceGP`;
         default on, docs/uncertainty.md measures both).
     orientation_kernel : {"matern52", "se", "matern32", "exponential", "auto"}
-        Form of that factor (:func:`~meshpress.kriging.orientation_factor`);
+        Form of that factor (:func:`~meshpress.gpkernels.orientation_factor`);
         default Matérn-5/2 of the angle between the normals (docs/uncertainty.md
         measures each); ``auto`` keeps the one of highest marginal likelihood
         among ``se``, ``matern52`` and ``matern32``.
     stagnation_prior : {"auto", True, False}
         With the Newtonian trend, centre the impact term's coefficient on full
         stagnation pressure (Cp = 1, or q for readings in Pa when ``q`` is
-        given; :func:`~meshpress.kriging.impact_prior`) instead of 0, so that a
+        given; :func:`~meshpress.gptrend.impact_prior`) instead of 0, so that a
         nose no tap sees is expected near stagnation, not at the mean of the
         taps (default True); ``"auto"`` fits both and keeps the one of higher
         marginal likelihood.  The likelihood cannot judge a nose no tap sees,
@@ -436,7 +436,8 @@ def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | Non
     -------
     UncertaintyResult
     """
-    from .kriging import SurfaceGP, stagnation_params
+    from .gptrend import stagnation_params
+    from .kriging import SurfaceGP
     from .patches import Carrier
 
     n = len(taps)

@@ -25,7 +25,7 @@ import numpy as np
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 import truth_cases as tc  # noqa: E402
 
-from meshpress.kriging import STAGNATION_SETTINGS  # noqa: E402
+from meshpress.gptrend import STAGNATION_SETTINGS  # noqa: E402
 from meshpress.planning import plan_taps  # noqa: E402
 from meshpress.uncertainty import compute_uncertainty  # noqa: E402
 

@@ -39,7 +39,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 import truth_cases as tc  # noqa: E402
 
 from meshpress.fields import make_field  # noqa: E402
-from meshpress.kriging import STAGNATION_SETTINGS  # noqa: E402
+from meshpress.gptrend import STAGNATION_SETTINGS  # noqa: E402
 from meshpress.patches import Carrier  # noqa: E402
 from meshpress.uncertainty import K95, Measurement, compute_uncertainty, figure_face_weights  # noqa: E402
 

@@ -391,7 +391,7 @@ def test_newtonian_trend_features_follow_sine_squared_law(sphere):
     # Newton's sine-squared law (Anderson, Hypersonic and High-Temperature Gas Dynamics, 2nd ed. 2006, sec. 3.2):
     # Cp / Cp_max = sin^2(delta), delta the angle between the oncoming flow and the surface, i.e. cos^2 of the
     # angle between the inward normal and the flow; zero on the leeward side.  The flow runs along +x.
-    from meshpress.kriging import trend_features
+    from meshpress.gptrend import trend_features
 
     n = sphere.face_normals
     F = trend_features(n, "newtonian")
@@ -408,7 +408,7 @@ def test_newtonian_trend_fills_an_untapped_windward_cap(method, sphere):
     # a field in the span of the trend, Cp = -0.3 + 1.2 cos^2 (windward) - 0.25 |cos| (leeward), is recovered on
     # a windward cap with no tap in it, where a constant mean reverts towards the taps' average (no clamping to
     # the tap range here: the cap lies above every reading).
-    from meshpress.kriging import trend_features
+    from meshpress.gptrend import trend_features
 
     def cp(normals):
         F = trend_features(normals, "newtonian")

@@ -136,7 +136,7 @@ def test_point_chunks_give_the_one_block_answer():
 def test_kriging_kernel_chosen_by_loo_and_rechosen_without_each_tap():
     # kernel="loo": every candidate fitted by maximum likelihood, the one of lowest leave-one-out RMS kept; the
     # nested residual of tap i is that of the kernel the other taps' residuals pick (Cawley and Talbot 2010).
-    from meshpress.kriging import AUTO_KERNELS
+    from meshpress.gpkernels import AUTO_KERNELS
 
     v, f = icosphere(3)
     sphere = Body(v, f)

@@ -6,7 +6,8 @@ import numpy as np
 import pytest
 
 from meshpress.body import Axles, Body
-from meshpress.kriging import SurfaceGP, impact_prior
+from meshpress.gptrend import impact_prior
+from meshpress.kriging import SurfaceGP
 from meshpress.patches import Carrier
 from meshpress.planning import allowed_nodes, greedy_plan, plan_taps
 from meshpress.uncertainty import figure_face_weights

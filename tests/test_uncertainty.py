@@ -323,7 +323,7 @@ def test_regions_in_a_spectral_kernel_match_the_dense_formulas(sphere):
     gp = SurfaceGP(car.distance, kernel="lb-matern32", spectrum=car.spectrum(), length_scale=0.6, variance=0.5,
                    nugget=1e-4, groups=groups).fit(car.points_matrix(taps.points), taps.values)
     lam, phi, area = car.spectrum()
-    from meshpress.kriging import spectral_density
+    from meshpress.gpkernels import spectral_density
 
     g = spectral_density(lam, 0.6, 1.5)
     B = groups[:, None] == groups[None, :]
@@ -410,7 +410,7 @@ def test_orientation_scale_is_fitted_at_the_likelihood_optimum(form):
     assert 0.1 < th < 10.0  # an interior optimum, not a bound
 
     def loglik(t):
-        from meshpress.kriging import orientation_factor
+        from meshpress.gpkernels import orientation_factor
 
         n = nrm[idx]
         F = orientation_factor(1.0 - n @ n.T, t, form)[0]
@@ -480,7 +480,7 @@ def test_stagnation_prior_matches_a_gp_with_a_trend_of_known_prior_mean_on_a_lin
     # DotProduct (sigma_0 = 0) on the Newtonian features, b = (1, 0) (impact term at full stagnation, Cp = 1).
     from sklearn.gaussian_process.kernels import DotProduct, Matern
 
-    from meshpress.kriging import impact_prior, trend_features
+    from meshpress.gptrend import impact_prior, trend_features
 
     x = np.linspace(0.0, 2.0, 61)
     d = np.abs(x[:, None] - x[None, :])
@@ -515,7 +515,7 @@ def test_stagnation_prior_fills_the_windward_side_of_a_sphere_with_no_tap_on_it(
     # the prior centred on stagnation puts the windward cap near Cp = 1 (a zero-mean prior leaves it near the
     # base level).
     from meshpress.fields import make_field
-    from meshpress.kriging import trend_features
+    from meshpress.gptrend import trend_features
 
     v, f = icosphere(3)
     body = Body(v, f, axles=Axles(-0.5, 0.5))
@@ -549,7 +549,7 @@ def test_stagnation_prior_is_kept_or_dropped_by_marginal_likelihood():
     # Newton's law at Cp_max = 1 on the windward side (Anderson, ch. 3) the prior centred on stagnation fits the
     # taps better than one centred on 0, and with a windward side in suction (Cp = -0.5 cos^2, invented) worse;
     # the choice keeps the better fit, and its likelihoods are those of the two fits made separately.
-    from meshpress.kriging import impact_prior, trend_features
+    from meshpress.gptrend import impact_prior, trend_features
 
     v, f = icosphere(3)
     body = Body(v, f, axles=Axles(-0.5, 0.5))

@@ -36,7 +36,7 @@ def add_flow_options(p):
     g.add_argument("--ref-area", type=float, metavar="A", help="reference area, m2 (default: frontal area)")
 
 
-# Literal copy of meshpress.kriging.KERNELS (importing it would load scipy just to print --help; a test
+# Literal copy of meshpress.gpkernels.KERNELS (importing it would load numpy just to print --help; a test
 # keeps the two equal).
 KRIGING_KERNELS = ("exponential", "matern32", "lb-matern12", "lb-matern32", "lb-matern52", "lb-heat")
 
@@ -50,7 +50,7 @@ def add_gp_kernel_option(g, default: str, about: str):
 def add_gp_orientation_option(g, default: bool, form: str):
     """``--orientation-gp on|off`` and ``--orientation-kernel``: the normals' factor in the kriging correlation
     and its form."""
-    from ..kriging import ORIENTATION_KERNELS
+    from ..gpkernels import ORIENTATION_KERNELS
 
     g.add_argument("--orientation-gp", default="on" if default else "off", choices=("on", "off"),
                    help="kriging correlation also falls with the angle between the surface normals, at a scale "
@@ -83,7 +83,7 @@ def add_stagnation_option(g):
 
 def stagnation_prior(args, default=True):
     """``--stagnation-prior`` as the models take it: "auto", True or False (``default`` when not given)."""
-    from ..kriging import STAGNATION_SETTINGS
+    from ..gptrend import STAGNATION_SETTINGS
 
     v = getattr(args, "stagnation_prior", None)
     return default if v is None else STAGNATION_SETTINGS[v]
