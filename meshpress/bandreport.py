@@ -14,6 +14,8 @@ import io
 
 import numpy as np
 
+from .uncertainty import field_outside
+
 MAP_VIEWS = ("three-quarter", "top", "bottom", "side")
 
 
@@ -103,6 +105,13 @@ def bands_section_html(unc, *, field_name="field", spread=None, map_png=None, ma
         f"({esc(field_name)}). The parts of <i>u</i> add in quadrature.</p>",
         f"<table>{head}{''.join(rows)}</table>",
     ]
+    out = field_outside(unc.bands)
+    if out:
+        parts.append("<p class=caution><b>Outside the band:</b> the field method's "
+                     + ", ".join(f"{esc(b.name)} {b.field_value:+.3f} (interval [{b.lo95:+.3f}, {b.hi95:+.3f}])"
+                                 for b in out)
+                     + ". The two estimates from the same taps disagree by more than the band allows: trust "
+                       "neither without more taps where the map below is dark.</p>")
     if spread:
         parts.append("<p class=muted>Method spread: largest minus smallest figure over the field methods "
                      f"{esc(', '.join(spread.get('_methods', [])))} on the same taps (as <code>meshpress compare"

@@ -298,6 +298,32 @@ class Band:
         return self.value + K95 * self.u
 
 
+COEFFICIENTS = ("CL", "CD", "CS", "CPM", "CLF", "CLR")  # the figures a disagreement is stated for
+
+
+def field_outside(bands, names=COEFFICIENTS) -> list:
+    """Bands whose field-method figure lies outside the 95 % interval of the kriging estimate.
+
+    When the two estimates from the same taps differ by more than the band
+    allows, the choice of method matters more than the model says there:
+    neither number should be trusted without more taps.
+
+    Parameters
+    ----------
+    bands : list of Band
+    names : sequence of str
+        Figures to check (default the coefficients, so a force and its
+        coefficient are not said twice).
+
+    Returns
+    -------
+    list of Band
+        In the order of ``bands``.
+    """
+    return [b for b in bands if b.name in names and b.field_value is not None
+            and not b.lo95 <= b.field_value <= b.hi95]
+
+
 def find_band(bands, name) -> Band:
     """The band of figure ``name`` in a list of bands (KeyError when it has none)."""
     for b in bands:

@@ -649,3 +649,25 @@ def test_normal_anisotropy_is_fitted_at_the_likelihood_optimum():
     for f in (0.95, 1.05):
         assert loglik(th * f, ka) <= best + 1e-7
         assert loglik(th, ka * f) <= best + 1e-7
+
+
+def test_field_outside_the_band_is_named():
+    # A value outside estimate +/- 1.96 u is outside the two-sided 95 % interval of a normal distribution
+    # (JCGM 100:2008, G.3; 1.959964 from scipy.stats.norm.ppf(0.975)); forces are not repeated beside their
+    # coefficients.
+    from scipy.stats import norm
+
+    from meshpress.commands.uncertainty import format_bands
+    from meshpress.uncertainty import Band, UncertaintyResult, field_outside
+
+    z = norm.ppf(0.975)
+    bands = [Band("CL", 0.30, 0.10, 0.0, 0.10, 0.0, 0.30 + 1.01 * z * 0.10),
+             Band("CD", 0.20, 0.05, 0.0, 0.05, 0.0, 0.20 - 0.99 * z * 0.05),
+             Band("lift_N", 300.0, 100.0, 0.0, 100.0, 0.0, 300.0 + 1.01 * z * 100.0)]
+    assert [b.name for b in field_outside(bands)] == ["CL"]
+    res = UncertaintyResult(bands, np.zeros(1), np.zeros((1, 3)), ["CL", "CD", "lift_N"], "test model", "cp")
+    text = format_bands(res, "rbf")
+    assert "outside the band: the field's CL +0.498" in text and "CD +0." not in text.split("outside")[1]
+    inside = [dataclasses.replace(b, field_value=b.value) for b in bands]
+    assert field_outside(inside) == []
+    assert "all lie inside" in format_bands(dataclasses.replace(res, bands=inside), "rbf")

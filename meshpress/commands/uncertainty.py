@@ -364,6 +364,8 @@ def format_change(ch) -> str:
 
 def format_bands(unc, field_name="field") -> str:
     """Plain-text table: estimate +/- u, 95 % interval, budget, and the field's own value beside."""
+    from ..uncertainty import field_outside
+
     lines = ["uncertainty (kriging along the surface; 95 % interval = estimate +/- 1.96 u)", ""]
     lines.append(f"  {'figure':<16}{'estimate':>11}{'u':>10}   {'95 % interval':<24}{'meas.':>9}{'sampl.':>9}"
                  f"{'q':>8}   {'field':>10}")
@@ -377,6 +379,14 @@ def format_bands(unc, field_name="field") -> str:
                      f"   {fv:>10}")
     lines += ["", f"  model: {unc.model}", f"  field column: {field_name} (its difference from the estimate is "
               "one sign of the method spread)"]
+    out = field_outside(unc.bands)
+    if out:
+        lines.append("  outside the band: the field's " + ", ".join(
+            f"{b.name} {b.field_value:+.3f} (interval [{b.lo95:+.3f}, {b.hi95:+.3f}])" for b in out)
+            + ": the two estimates from the same taps disagree by more than the band allows; trust neither "
+              "without more taps where unknown pressure matters most (--map; meshpress plan)")
+    elif any(b.field_value is not None for b in unc.bands):
+        lines.append("  the field's coefficients all lie inside their 95 % intervals")
     lines += [f"  note: {n}" for n in unc.notes]
     lines.append("  The band covers measurement and sampling between taps under the model's assumptions; it cannot "
                  "see a feature no tap comes near.")
