@@ -111,7 +111,9 @@ def bands_section_html(unc, *, field_name="field", spread=None, map_png=None, ma
                      + ", ".join(f"{esc(b.name)} {b.field_value:+.3f} (interval [{b.lo95:+.3f}, {b.hi95:+.3f}])"
                                  for b in out)
                      + ". The two estimates from the same taps disagree by more than the band allows: trust "
-                       "neither without more taps where the map below is dark.</p>")
+                       "neither without more taps where unknown pressure matters most for that figure "
+                       f"(<code>meshpress uncertainty --map-figure {esc(out[0].name)}</code>, <code>meshpress "
+                       f"plan --figures {esc(','.join(b.name for b in out))}</code>).</p>")
     if spread:
         parts.append("<p class=muted>Method spread: largest minus smallest figure over the field methods "
                      f"{esc(', '.join(spread.get('_methods', [])))} on the same taps (as <code>meshpress compare"
