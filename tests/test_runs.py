@@ -419,6 +419,12 @@ def test_cli_run_bands_outputs(tmp_path):
                                                        ("change", "shifted")}
     conf = json.loads((out / "configurations/plain.json").read_text())
     assert conf["uncertainty"]["CL_lo95"] < conf["uncertainty"]["CL"] < conf["uncertainty"]["CL_hi95"]
+    # a field figure outside its configuration's 95 % interval is named in the summary, and only then
+    for name in ("plain", "shifted"):
+        u = json.loads((out / f"configurations/{name}.json").read_text())["uncertainty"]
+        outside = [f for f in ("CL", "CD", "CLF", "CLR")
+                   if not u[f + "_lo95"] <= u["uncertainty_budget"][f]["field_value"] <= u[f + "_hi95"]]
+        assert (f"  {name}: the " in r.stdout) == bool(outside)
     assert "u_random" in conf["configuration"]["tap_cp"][0]
     comp = json.loads((out / "comparisons/plain__vs__shifted.json").read_text())
     assert comp["change"]["figures"]["CL"]["u"] > 0

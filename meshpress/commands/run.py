@@ -147,6 +147,8 @@ def _pm(b, width=18):
 
 def format_bands_summary(result) -> list:
     """Lines: each configuration's and each change's CL, CD, CLF, CLR as estimate +/- u, and the change sentences."""
+    from ..uncertainty import field_outside
+
     figs = ("CL", "CD", "CLF", "CLR")
 
     def get(res, k):
@@ -163,6 +165,12 @@ def format_bands_summary(result) -> list:
         out.append(f"  {name:<26}" + "".join(_pm(get(c.bands, k)) for k in figs))
     for ch in result.changes:
         out.append(f"  {(ch.other_label + ' - ' + ch.base_label)[:26]:<26}" + "".join(_pm(get(ch, k)) for k in figs))
+    for name, c in result.configurations.items():
+        outside = field_outside(c.bands.bands, figs) if c.bands is not None else []
+        if outside:
+            out.append(f"  {name}: the {result.sheet.method} field's "
+                       + ", ".join(f"{b.name} {b.field_value:+.3f}" for b in outside)
+                       + " outside the band: the two estimates disagree by more than it allows")
     for ch in result.changes:
         out.append(f"\n  {ch.other_label} vs {ch.base_label}:")
         out += [f"    {ch.sentence(k)}" for k in figs if get(ch, k) is not None]
