@@ -34,7 +34,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .errors import InputError
-from .uncertainty import K95, Band, Measurement, compute_uncertainty, difference_u, find_band
+from .uncertainty import K95, Band, Measurement, compute_uncertainty, difference_u, field_outside, find_band
 
 #: Lift figures whose minus sign reads as downforce in a sentence.
 _DOWNFORCE = {"CL": "downforce coefficient", "CLF": "front downforce coefficient",
@@ -158,6 +158,7 @@ class ChangeResult:
     def to_dict(self) -> dict:
         """JSON form: ``{"base", "other", "taps", "figures": {NAME: {value, u, lo95, hi95, ...}}, ...}``."""
         figs = {}
+        flagged = {b.name for b in field_outside(self.bands, names=None)}
         for b in self.bands:
             bo, bb = _get(self.other, b.name), _get(self.base, b.name)
             figs[b.name] = {"value": b.value, "u": b.u, "lo95": b.lo95, "hi95": b.hi95,
@@ -167,7 +168,7 @@ class ChangeResult:
                             "base_value": None if bb is None else bb.value, "base_u": None if bb is None else bb.u,
                             "resolved": bool(abs(b.value) > K95 * b.u),
                             "method_gap_over_u": None if b.field_value is None else abs(b.field_value - b.value) / b.u,
-                            "flagged": _flagged(b)}
+                            "flagged": b.name in flagged}
         return {"base": self.base_label, "other": self.other_label, "meaning": "other minus base", "taps": self.n_taps,
                 "figures": figs, "model": self.model, "error_correlation": self.correlation,
                 "coverage": "95 % interval = change +/- 1.96 u (normal)", "assumptions": list(self.assumptions),
@@ -300,17 +301,12 @@ def compute_change(body, taps, y_base, y_other, *, err_base: ErrorSources, err_o
         bands.append(Band(name, b.value, float(np.sqrt(vm + vs + vq)), float(np.sqrt(vm)), float(b.u_sampling),
                           float(np.sqrt(vq)), fv))
     notes = list(dres.notes)
-    gap = [b.name for b in bands if _flagged(b)]
+    gap = [b.name for b in field_outside(bands, names=None)]
     if gap:
         notes.append(f"the field method's change lies outside the 95 % interval for {', '.join(gap)}: the band "
                      "may be too narrow there (a change concentrated where few taps are; docs/uncertainty.md)")
     return ChangeResult(bands, base_result, other_result, list(dres.names), dres.model, base_label, other_label, n,
                         rho, assumptions_text(rho), notes, W, dres)
-
-
-def _flagged(b) -> bool:
-    """True when the field method's change lies outside the estimate's 95 % interval (a sign of the method spread)."""
-    return b.field_value is not None and not (b.lo95 <= b.field_value <= b.hi95)
 
 
 def _q_scaled(names, kind):

@@ -311,16 +311,16 @@ def field_outside(bands, names=COEFFICIENTS) -> list:
     Parameters
     ----------
     bands : list of Band
-    names : sequence of str
+    names : sequence of str or None
         Figures to check (default the coefficients, so a force and its
-        coefficient are not said twice).
+        coefficient are not said twice; None: every band).
 
     Returns
     -------
     list of Band
         In the order of ``bands``.
     """
-    return [b for b in bands if b.name in names and b.field_value is not None
+    return [b for b in bands if (names is None or b.name in names) and b.field_value is not None
             and not b.lo95 <= b.field_value <= b.hi95]
 
 
