@@ -23,6 +23,7 @@ import numpy as np
 import pandas as pd
 
 from .errors import InputError
+from .tables import read_table
 from .units import pressure_factor, speed_factor
 
 
@@ -65,17 +66,7 @@ class Series:
 
 
 def _read_table(path) -> pd.DataFrame:
-    try:
-        if str(path).lower().endswith((".xlsx", ".xlsm")):
-            df = pd.read_excel(path, dtype=object)
-        else:
-            df = pd.read_csv(path, comment="#", skipinitialspace=True, dtype=str)
-    except pd.errors.EmptyDataError:
-        raise InputError(f"{path}: the readings file is empty") from None
-    except Exception as exc:
-        msg = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
-        raise InputError(f"{path}: could not be read as a table: {msg}") from None
-    df.columns = [str(c).strip() for c in df.columns]
+    df = read_table(path, "readings file")
     if df.empty:
         raise InputError(f"{path}: the readings file has no rows")
     return df

@@ -268,7 +268,7 @@ def reduce_run(run: Run, series: Series, rho: float, zero: Series | None = None)
 
 def _read_run(run: Run, names, exclude=()) -> tuple[Series, Series | None]:
     """Read a run's readings and zero files (excluded taps' columns are skipped)."""
-    from .readings import _read_table
+    from .tables import read_table
 
     ignore = tuple(run.ignore_columns) + tuple(exclude)
     kw = dict(fmt=run.format, unit=run.unit, time_column=run.time_column, q_column=run.q_column,
@@ -278,7 +278,7 @@ def _read_run(run: Run, names, exclude=()) -> tuple[Series, Series | None]:
     zero = None
     if run.zero:
         # At rest there is no speed; q and reference channels are zeroed when the zero file has them.
-        cols = set(_read_table(run.zero).columns)
+        cols = set(read_table(run.zero, "zero file").columns)
         zkw = dict(kw, speed_column=None, ignore=ignore + ((run.speed_column,) if run.speed_column else ()))
         for k in ("q_column", "ref_column"):
             if zkw[k] and zkw[k] not in cols:

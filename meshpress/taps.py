@@ -17,6 +17,7 @@ import pandas as pd
 
 from .errors import InputError
 from .frame import parse_axis
+from .tables import SPREADSHEETS, read_table
 from .units import pressure_factor
 
 VALUE_KINDS = ("p", "cp")
@@ -57,7 +58,8 @@ def read_taps(path, *, pressure_unit: str = "Pa", values: bool = True) -> TapTab
     Parameters
     ----------
     path : str or Path
-        CSV file (or .xlsx, read with openpyxl).
+        CSV file (comma, semicolon or tab separated; :mod:`meshpress.tables`)
+        or .xlsx (read with openpyxl).
     pressure_unit : str
         Unit of the ``p`` column (Pa, kPa, hPa, mbar, mmH2O, inH2O, psi).
     values : bool
@@ -78,7 +80,7 @@ def read_taps(path, *, pressure_unit: str = "Pa", values: bool = True) -> TapTab
     where = str(path)
     if not path.is_file():
         raise InputError(f"tap file {where!r} does not exist")
-    df = _read_frame(path)
+    df = read_table(path, "tap table")
     df.columns = [str(c).strip().lower() for c in df.columns]
     if df.empty:
         raise InputError(f"{where}: the tap table has no rows")
@@ -136,28 +138,11 @@ def read_taps(path, *, pressure_unit: str = "Pa", values: bool = True) -> TapTab
 
 def _row_numbers(path: Path, n: int) -> np.ndarray:
     """File line (CSV) or sheet row (xlsx) of each data row, 1-based, and the word for it."""
-    if path.suffix.lower() in (".xlsx", ".xlsm"):
+    if path.suffix.lower() in SPREADSHEETS:
         return np.arange(n) + 2, "row"
-    with open(path, encoding="utf-8", errors="replace") as fh:
+    with open(path, encoding="utf-8-sig", errors="replace") as fh:
         data = [i + 1 for i, line in enumerate(fh) if line.strip() and not line.lstrip().startswith("#")]
     rows = np.array(data[1 : n + 1])
     return (rows, "line") if len(rows) == n else (np.arange(n) + 2, "row")
 
 
-def _read_frame(path: Path) -> pd.DataFrame:
-    suffix = path.suffix.lower()
-    try:
-        if suffix in (".xlsx", ".xlsm"):
-            try:
-                import openpyxl  # noqa: F401
-            except ImportError:
-                raise InputError(f"{path}: reading .xlsx needs openpyxl (pip install openpyxl)") from None
-            return pd.read_excel(path, dtype=object)
-        return pd.read_csv(path, comment="#", dtype=str, skipinitialspace=True)
-    except InputError:
-        raise
-    except pd.errors.EmptyDataError:
-        raise InputError(f"{path}: the tap table is empty") from None
-    except Exception as exc:
-        msg = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
-        raise InputError(f"{path}: could not be read as a table: {msg}") from None
