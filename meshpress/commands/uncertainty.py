@@ -86,11 +86,10 @@ def read_tap_u(path, names, kind, pressure_unit="Pa"):
     import pandas as pd
 
     from ..errors import InputError
-    from ..taps import _read_frame
+    from ..tables import read_table
     from ..units import pressure_factor
-    from pathlib import Path
 
-    df = _read_frame(Path(path))
+    df = read_table(path, "tap table")
     df.columns = [str(c).strip().lower() for c in df.columns]
     col = next((c for c in U_COLUMNS if c in df.columns), None)
     if col is None:
