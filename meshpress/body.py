@@ -349,6 +349,7 @@ def load_body(
             volume_m3=body.volume() if watertight else None,
         )
     warnings += _size_warnings(bmax - bmin, length_unit, scale)
+    warnings += _axis_warnings(bmax - bmin, up, forward)
     if not orientable:
         warnings.append("some faces could not be wound consistently (non-orientable or non-manifold pieces)")
     if closure > TOL.closure_warn:
@@ -421,6 +422,20 @@ def _clean(v: np.ndarray, f: np.ndarray):
     remap = np.cumsum(used) - 1
     v, f = v[used], remap[f]
     return v, f, 0.5 * cr, merged, m0 - len(f)
+
+
+def _axis_warnings(extent: np.ndarray, up: str, forward: str) -> list[str]:
+    """Warn when the body is much shorter along the forward axis than across it: the usual sign of wrong axes.
+
+    A car is longest along its length (common practice: length about twice
+    the width); a lone wing or panel is not, hence a warning, not an error.
+    """
+    lx, ly, lz = (float(e) for e in extent)
+    if lx >= TOL.axis_check_ratio * max(ly, lz):
+        return []
+    across = "to the side (y)" if ly >= lz else "upward (z)"
+    return [f"the body is {lx:.3g} m long along --forward {forward} but {max(ly, lz):.3g} m {across}: check --forward "
+            f"and --up ({up}); ignore this for a wing or a part that is wider than it is long"]
 
 
 def _size_warnings(extent: np.ndarray, unit: str, scale: float) -> list[str]:

@@ -34,6 +34,10 @@ class Tolerances:
     cluster_cell_m : float
         Cluster voxel side, m (2 cm: loads within 0.01-0.07 % of face-by-face
         on the 1M-face benchmark body; docs/performance.md).
+    axis_check_ratio : float
+        Warn of wrong axes when the body's extent along the forward axis is
+        below this fraction of its width or height (a car's length is about
+        twice its width; common practice).
     """
 
     merge_digits: int = 6
@@ -45,6 +49,7 @@ class Tolerances:
     closure_warn: float = 1e-3
     cluster_min_faces: int = 200_000
     cluster_cell_m: float = 0.02
+    axis_check_ratio: float = 0.8
 
 
 TOL = Tolerances()

@@ -134,6 +134,20 @@ def test_implausible_size_names_the_unit(tmp_path, small_car):
     assert any("--length-unit mm" in w for w in b.warnings)
 
 
+def test_wrong_forward_axis_is_warned(tmp_path, small_car):
+    # A car is longest along its length (common practice: about twice its width): the same body read with its
+    # length taken as the height (y up and forward -z written as the defaults z up, forward -x) gets a warning
+    # naming the options; read right, it gets none.
+    path, v, f = small_car
+    mm = np.column_stack([v[:, 1], v[:, 2], v[:, 0]]) * 1000.0  # y up, forward -z, in mm
+    p2 = tmp_path / "car_mm.vtu"
+    meshio.write(p2, meshio.Mesh(mm, [("triangle", f)]))
+    right = meshpress.load_body(p2, length_unit="mm", up="+y", forward="-z")
+    wrong = meshpress.load_body(p2, length_unit="mm")
+    assert not any("check --forward" in w for w in right.warnings)
+    assert any("check --forward and --up (+z)" in w and "upward (z)" in w for w in wrong.warnings)
+
+
 @pytest.mark.parametrize("kw, msg", [
     (dict(up="+w"), "not a signed axis"),
     (dict(up="+z", forward="-z"), "must be different axes"),
