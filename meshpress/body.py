@@ -64,6 +64,13 @@ class Body:
         Doubts found while loading.
     source : str, optional
         The file the body came from.
+
+    Attributes
+    ----------
+    setup_warnings : list of str
+        The warnings that point at the unit or axes given (a subset of
+        ``warnings``), repeated in errors they may explain (a tap far from
+        the surface).
     """
 
     def __init__(self, vertices, faces, *, frame=None, axles=None, report=None, warnings=None, source=None):
@@ -73,6 +80,7 @@ class Body:
         self.axles = axles
         self.report = report
         self.warnings = list(warnings or [])
+        self.setup_warnings = []
         self.source = source
 
     def _seed(self, **arrays):
@@ -348,8 +356,8 @@ def load_body(
             orientable=orientable,
             volume_m3=body.volume() if watertight else None,
         )
-    warnings += _size_warnings(bmax - bmin, length_unit, scale)
-    warnings += _axis_warnings(bmax - bmin, up, forward)
+    setup = _size_warnings(bmax - bmin, length_unit, scale) + _axis_warnings(bmax - bmin, up, forward)
+    warnings += setup
     if not orientable:
         warnings.append("some faces could not be wound consistently (non-orientable or non-manifold pieces)")
     if closure > TOL.closure_warn:
@@ -360,6 +368,7 @@ def load_body(
         )
     body.report = report
     body.warnings = warnings
+    body.setup_warnings = setup
     return body
 
 
@@ -434,7 +443,11 @@ def _axis_warnings(extent: np.ndarray, up: str, forward: str) -> list[str]:
     if lx >= TOL.axis_check_ratio * max(ly, lz):
         return []
     across = "to the side (y)" if ly >= lz else "upward (z)"
-    return [f"the body is {lx:.3g} m long along --forward {forward} but {max(ly, lz):.3g} m {across}: check --forward "
+
+    def m(x):
+        return f"{x:,.0f}" if x >= 100 else f"{x:.3g}"
+
+    return [f"the body is {m(lx)} m long along --forward {forward} but {m(max(ly, lz))} m {across}: check --forward "
             f"and --up ({up}); ignore this for a wing or a part that is wider than it is long"]
 
 

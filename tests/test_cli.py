@@ -89,6 +89,8 @@ def _bad(tmp_path, sample):
         (["loads", mesh, taps, *SAMPLE, "--pressure-unit", "furlongs"], "unknown pressure unit"),
         (["loads", mesh, taps, *SAMPLE, "--length-unit", "parsec"], "unknown length unit"),
         (["loads", mesh, taps, *SAMPLE, "--up", "+w"], "not a signed axis"),
+        # the mm sample read in m (the default): the tap error also names the likely unit
+        (["loads", mesh, taps, "--up", "+y", "--forward=-z"], "; note: the body is 4,200 m long with --length-unit m"),
         (["loads", mesh, taps, *SAMPLE, "--speed", "-3"], "--speed must be positive"),
         (["loads", mesh, taps, *SAMPLE, "--speed", "fast"], "is not a number"),
         (["loads", mesh, taps, *SAMPLE, "--speed", "30 knots"], "unknown speed unit"),
