@@ -151,7 +151,7 @@ def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrie
               q=None, ref_area=None, boxes=(), excluded_faces=None, min_spacing=0.05, length_scale=None,
               kernel="exponential", regions=None, orientation: bool = True, orientation_kernel: str = "matern52",
               trend: str | None = "newtonian", stagnation_prior=True, anisotropy: bool = False,
-              progress=None) -> Plan:
+              fit: bool = True, progress=None) -> Plan:
     """Propose ``n_add`` tap positions that cut the chosen figures' uncertainty most.
 
     Parameters
@@ -159,6 +159,10 @@ def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrie
     body : Body
     taps : ProjectedTaps, optional
         Existing taps (with readings, to fit the model); None for a new car.
+    fit : bool
+        False when ``taps`` is a layout without readings: the model is then
+        the new car's prior (see ``length_scale``), conditioned on the taps'
+        places only.
     figures : sequence of str
         Among CL, CD, CS, CLF, CLR, CPM and the N figures.
     n_add : int
@@ -223,7 +227,7 @@ def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrie
     groups, B = carrier.regions(regions)
     a = carrier.fine_weights(G, B)
     n_taps = 0 if taps is None else len(taps)
-    if n_taps >= 3:
+    if n_taps >= 3 and fit:
         gp = SurfaceGP.on_carrier(carrier, kernel=kernel, length_scale=length_scale, groups=groups, trend=trend,
                                   orientation=orientation, orientation_kernel=orientation_kernel,
                                   normal_anisotropy=None if anisotropy else 1.0,
@@ -260,5 +264,5 @@ def plan_taps(body, taps=None, *, figures=("CL", "CLF", "CLR"), n_add=20, carrie
     plan.carrier = carrier
     plan.figure_weights = a
     plan.node_sd_before = np.sqrt(np.maximum(np.diag(cov), 0.0))
-    plan.absolute = n_taps >= 3 and (kind == "cp" or bool(q))
+    plan.absolute = n_taps >= 3 and fit and (kind == "cp" or bool(q))
     return plan

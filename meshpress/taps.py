@@ -136,6 +136,14 @@ def read_taps(path, *, pressure_unit: str = "Pa", values: bool = True) -> TapTab
     return TapTable(names, pts, vals, kind, sides, where)
 
 
+def has_readings(path) -> bool:
+    """Whether a tap table holds readings (a ``p`` or ``cp`` column) or only a layout."""
+    path = Path(path)
+    if not path.is_file():
+        raise InputError(f"tap file {str(path)!r} does not exist")
+    return any(str(c).strip().lower() in VALUE_KINDS for c in read_table(path, "tap table").columns)
+
+
 def _row_numbers(path: Path, n: int) -> np.ndarray:
     """File line (CSV) or sheet row (xlsx) of each data row, 1-based, and the word for it."""
     if path.suffix.lower() in SPREADSHEETS:

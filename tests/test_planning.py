@@ -89,6 +89,20 @@ def test_plan_for_a_new_car_without_taps(sphere):
     assert np.all(np.diff(plan.u_path[:, 0]) <= 1e-12)
 
 
+def test_plan_from_a_layout_without_readings(sphere):
+    # A layout's places condition the prior without fitting it: a Gaussian posterior variance never exceeds the
+    # prior's (Rasmussen and Williams 2006, eq. 2.26), so each figure's u before adding is at most the new car's,
+    # and no planned tap comes within the spacing of the layout's taps.
+    layout = make_taps(sphere, fib_points(12, "front"))
+    new = plan_taps(sphere, None, figures=("CL", "CLF"), n_add=4, ref_area=np.pi, min_spacing=0.3)
+    plan = plan_taps(sphere, layout, figures=("CL", "CLF"), n_add=4, ref_area=np.pi, min_spacing=0.3, fit=False,
+                     carrier=new.carrier)
+    assert np.all(plan.u_before < new.u_before) and not plan.absolute
+    old = new.carrier.nearest_vertex(layout.points)
+    assert new.carrier.distance[np.ix_(plan.nodes, old)].min() >= 0.3
+    assert np.all(np.diff(plan.u_path[:, 0]) <= 1e-12)
+
+
 @pytest.mark.slow
 def test_cli_plan_writes_mesh_unit_csv_and_rejects_bad_figures(cli, tmp_path):
     import trimesh
@@ -112,5 +126,12 @@ def test_cli_plan_writes_mesh_unit_csv_and_rejects_bad_figures(cli, tmp_path):
              if ln.split() and ln.split()[0] in ("CL", "CLR")}
     assert set(table) == {"CL", "CLR"} and "sampling part" in r.stdout
     assert all(after <= now for now, after, _ in table.values())
+    # a layout without readings is planned around, not refused
+    layout = tmp_path / "layout.csv"
+    layout.write_text("tap,x,y,z\nA,1000,0,0\nB,0,1000,0\nC,0,0,1000\nD,-1000,0,0\n")
+    r = cli("plan", mesh, "--taps", layout, "--length-unit", "mm", "--add", "2", "--quiet", "--figures", "CL", "--out",
+            tmp_path / "l.csv", "--min-spacing", "200 mm")
+    assert r.returncode == 0, r.stderr
+    assert "a layout without readings" in r.stdout and "relative units" in r.stdout
     r = cli("plan", mesh, "--figures", "CL,XYZ", "--quiet", "--out", tmp_path / "x.csv")
     assert r.returncode == 2 and r.stderr.startswith("meshpress: error: --figures")

@@ -192,8 +192,10 @@ def method_settings(args, method=None) -> dict:
     return s
 
 
-def load_inputs(args, progress):
+def load_inputs(args, progress, *, values: bool = True):
     """The body and, when ``args.taps`` is given, its taps placed on it, from the shared options.
+
+    ``values=False`` reads the taps as a layout (positions only; :func:`meshpress.taps.read_taps`).
 
     Returns
     -------
@@ -208,7 +210,7 @@ def load_inputs(args, progress):
                      front_axle=args.front_axle, rear_axle=args.rear_axle, ground=args.ground, progress=progress)
     if not args.taps:
         return body, None
-    table = read_taps(args.taps, pressure_unit=args.pressure_unit)
+    table = read_taps(args.taps, pressure_unit=args.pressure_unit, values=values)
     with progress.step("projecting taps"):
         taps = project_taps(body, table, max_distance=max_distance_m(args.max_tap_distance, args.length_unit))
     return body, taps

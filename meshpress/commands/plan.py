@@ -14,7 +14,8 @@ def add_parser(sub):
                                    "tap at a time where the chosen figures' summed relative posterior variance "
                                    "falls most.")
     p.add_argument("mesh", help="surface mesh")
-    p.add_argument("--taps", help="existing tap table (with readings, to fit the model); leave out for a new car")
+    p.add_argument("--taps", help="existing tap table: with readings (p or cp) the model is fitted to them; a layout "
+                                        "without readings only marks the places taken; leave out for a new car")
     add_body_options(p)
     add_flow_options(p)
     p.add_argument("--max-tap-distance", default=None, metavar="D", help="largest tap-to-surface distance")
@@ -87,6 +88,7 @@ def run(args) -> int:
     from ..planning import plan_taps
     from ..progress import Progress
     from ..results import check_not_input, write_atomic
+    from ..taps import has_readings
     from ..units import LENGTH_UNITS, length_factor, parse_quantity
 
     progress = Progress(enabled=False if args.quiet else None)
@@ -109,14 +111,18 @@ def run(args) -> int:
     for o in (args.out, args.picture):
         if o:
             check_not_input(o, (args.mesh, args.taps))
-    body, taps = load_inputs(args, progress)
+    readings = not args.taps or has_readings(args.taps)
+    body, taps = load_inputs(args, progress, values=readings)
+    if not readings:
+        print(f"  {args.taps}: a layout without readings (no p or cp column): the plan uses the prior of a new car, "
+              "conditioned on these taps' places\n")
     plan = plan_taps(body, taps, figures=figures, n_add=args.add, n_patches=args.patches,
                      boxes=_boxes(args.exclude_box, body), excluded_faces=_faces(args.exclude_faces, body),
                      min_spacing=spacing, length_scale=ell, q=resolve_q(args.q, speed_mps(args.speed), args.air_density),
                      ref_area=args.ref_area, kernel=args.kernel_gp, regions=args.regions,
                      orientation=args.orientation_gp == "on", orientation_kernel=args.orientation_kernel,
                      anisotropy=args.anisotropy_gp == "on", trend=gp_trend(args),
-                     stagnation_prior=stagnation_prior(args), progress=progress)
+                     stagnation_prior=stagnation_prior(args), fit=readings, progress=progress)
     pts = body.frame.to_mesh(plan.points) if body.frame else plan.points
     existing = set(taps.names) if taps is not None else set()
     names, k = [], 1
