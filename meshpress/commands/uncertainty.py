@@ -251,11 +251,11 @@ def run(args) -> int:
     if change is not None:
         print()
         print(format_change(change))
+    # The bands' JSON object, as --json and the report's loads.json both carry it.
+    unc_doc = {**unc.to_dict(), **({"method_spread": spread} if spread else {})}
     if args.json:
         d = loads.to_dict()
-        d["uncertainty"] = unc.to_dict()
-        if spread:
-            d["uncertainty"]["method_spread"] = spread
+        d["uncertainty"] = unc_doc
         if change is not None:
             d["baseline_uncertainty"] = change.base.to_dict()
             d["change"] = change.to_dict()
@@ -280,8 +280,7 @@ def run(args) -> int:
             files = write_report(LoadRun(body, taps, field, loads), args.report, protect=inputs, progress=progress,
                                  sections=[("How sure is the number", html)],
                                  extra_images={f"map_{args.map_figure}": png},
-                                 json_extra={"uncertainty": {**unc.to_dict(),
-                                                             **({"method_spread": spread} if spread else {})}})
+                                 json_extra={"uncertainty": unc_doc})
             print(f"  wrote {files.html}")
     return 0
 
