@@ -68,28 +68,29 @@ def run(args) -> int:
     out = Path(args.out)
     out.mkdir(parents=True, exist_ok=True)
     bands = {"uncertainty": unc.to_dict()} if unc is not None else {}
-    write_json({**result.to_dict(), **bands}, out / "loads.json", protect=(mesh, taps))
-    print(f"\n  wrote {out / 'loads.json'}")
-    if not args.no_report:
-        from ..report import missing_libraries, write_report
+    from ..report import missing_libraries, write_report
 
-        if missing_libraries():
-            print(f"  no report: it needs {', '.join(missing_libraries())} (pip install {' '.join(missing_libraries())})")
-            return 0
+    missing = [] if args.no_report else missing_libraries()
+    if args.no_report or missing:  # with a report, the report writes loads.json (json_extra)
+        write_json({**result.to_dict(), **bands}, out / "loads.json", protect=(mesh, taps))
+        print(f"\n  wrote {out / 'loads.json'}")
+        if missing:
+            print(f"  no report: it needs {', '.join(missing)} (pip install {' '.join(missing)})")
+        return 0
+    sections, extra = (), None
+    if unc is not None:
+        from ..bandreport import bands_section_html, importance_png
 
-        sections, extra = (), None
-        if unc is not None:
-            from ..bandreport import bands_section_html, importance_png
-
-            with progress.step("rendering the map"):
-                png = importance_png(unc, run.body, run.taps, "CL")
-            sections = [("How sure is the number", bands_section_html(unc, field_name=run.field.describe(),
-                                                                      map_png=png, map_figure="CL"))]
-            extra = {"map_CL": png}
-        files = write_report(run, out, protect=(mesh, taps), progress=progress,
-                             title=f"meshpress demo: {mesh.name}",
-                             demo_note="INVENTED DEMO DATA: a made-up coupe and made-up readings, to show what "
-                                       "meshpress does. Not a measurement of any car.",
-                             sections=sections, extra_images=extra, json_extra=bands)
-        print(f"  wrote {files.html} (open it in a browser) and the files beside it")
+        with progress.step("rendering the map"):
+            png = importance_png(unc, run.body, run.taps, "CL")
+        sections = [("How sure is the number", bands_section_html(unc, field_name=run.field.describe(),
+                                                                  map_png=png, map_figure="CL"))]
+        extra = {"map_CL": png}
+    files = write_report(run, out, protect=(mesh, taps), progress=progress,
+                         title=f"meshpress demo: {mesh.name}",
+                         demo_note="INVENTED DEMO DATA: a made-up coupe and made-up readings, to show what "
+                                   "meshpress does. Not a measurement of any car.",
+                         sections=sections, extra_images=extra, json_extra=bands)
+    print(f"\n  wrote {files.json}")
+    print(f"  wrote {files.html} (open it in a browser) and the files beside it")
     return 0
