@@ -154,7 +154,7 @@ def project_taps(body: Body, taps: TapTable, *, max_distance: float = TOL.max_ta
         raise InputError(
             f"{taps.source}: tap {taps.names[i]!r} is {dist[i] * 1000:.1f} mm from the surface, more than "
             f"the {max_distance * 1000:g} mm allowed (--max-tap-distance){more}; check its coordinates, unit and axes"
-            + "".join(f"; note: {w}" for w in getattr(body, "setup_warnings", ()))
+            + "".join(f"; note: {w}" for w in body.setup_warnings)
         )
     same = coincident(pts)
     if same:
