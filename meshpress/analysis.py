@@ -10,8 +10,9 @@ from . import __version__
 from .body import Body, load_body
 from .coefficients import ISA_RHO, dynamic_pressure
 from .errors import InputError
-from .fields import make_field
+from .fields import DEFAULT_METHOD, make_field
 from .fields.base import Field
+from .fields.posterior import PosteriorField
 from .integrate import force_and_moment
 from .quadrature import clustered_force_and_moment
 from .progress import Progress
@@ -41,7 +42,8 @@ def compute_loads(
     taps : ProjectedTaps
         Values in Pa (``kind == "p"``) or Cp.
     field : Field, optional
-        Unfitted field method; default straight-line thin-plate RBF.
+        Unfitted field method; default :data:`meshpress.fields.DEFAULT_METHOD`
+        (the posterior mean of the bands' surface Gaussian process).
     q : float, optional
         Dynamic pressure, Pa.  Needed to turn Pa into coefficients or Cp into
         forces.
@@ -68,7 +70,7 @@ def compute_loads(
         raise InputError(f"dynamic pressure q must be positive, got {q:g} Pa")
     if ref_area is not None and not (ref_area > 0):
         raise InputError(f"reference area must be positive, got {ref_area:g} m2")
-    field = field or make_field("rbf")
+    field = field or make_field()
     if ref_area is None:
         # The frontal-area raster needs nothing from the field: it runs on the second core meanwhile.
         body.prefetch(frontal_resolution=frontal_resolution)
@@ -158,7 +160,7 @@ def resolve_q(q=None, speed=None, air_density=None) -> float | None:
 
 
 def run_loads(mesh, taps_file, *, length_unit="m", up="+z", forward="-x", front_axle=None, rear_axle=None,
-              ground=None, pressure_unit="Pa", max_tap_distance=TOL.max_tap_distance_m, method="rbf",
+              ground=None, pressure_unit="Pa", max_tap_distance=TOL.max_tap_distance_m, method=DEFAULT_METHOD,
               method_settings=None, q=None, ref_area=None, p_ref=0.0, progress=None) -> LoadResult:
     """File to result: :func:`load_body`, :func:`read_taps`, :func:`project_taps`, :func:`compute_loads`.
 
@@ -175,12 +177,18 @@ class LoadRun:
     taps: ProjectedTaps
     field: object
     result: LoadResult
+    bands: object = None  # UncertaintyResult, when asked for
 
 
 def run_loads_parts(mesh, taps_file, *, length_unit="m", up="+z", forward="-x", front_axle=None, rear_axle=None,
-                    ground=None, pressure_unit="Pa", max_tap_distance=TOL.max_tap_distance_m, method="rbf",
-                    method_settings=None, q=None, ref_area=None, p_ref=0.0, progress=None) -> LoadRun:
-    """:func:`run_loads`, keeping the body, the projected taps and the fitted field."""
+                    ground=None, pressure_unit="Pa", max_tap_distance=TOL.max_tap_distance_m, method=DEFAULT_METHOD,
+                    method_settings=None, q=None, ref_area=None, p_ref=0.0, bands=None, progress=None) -> LoadRun:
+    """:func:`run_loads`, keeping the body, the projected taps and the fitted field.
+
+    ``bands``: None for none, True for the bands with no stated measurement error (the fit's nugget still
+    counts), or a dict of :meth:`meshpress.uncertainty.Measurement.build` arguments (``sensor``, ``tap_u``,
+    ``u_p_ref``, ``u_q_rel``).  With the default method the loads are the centre of these bands (one model).
+    """
     progress = progress or Progress(enabled=False)
     body = load_body(mesh, length_unit=length_unit, up=up, forward=forward, front_axle=front_axle,
                      rear_axle=rear_axle, ground=ground, progress=progress)
@@ -191,6 +199,23 @@ def run_loads_parts(mesh, taps_file, *, length_unit="m", up="+z", forward="-x", 
     with progress.step("projecting taps"):
         projected = project_taps(body, table, max_distance=max_tap_distance)
     field = make_field(method, **(method_settings or {}))
+    meas = None
+    if bands is not None and bands is not False:
+        from .uncertainty import Measurement
+
+        meas = Measurement.build(len(projected), **({} if bands is True else bands))
+    if isinstance(field, PosteriorField):
+        # The field is the bands' model: it takes the stated tap errors as known noise, and q for the
+        # stagnation level of readings in Pa.
+        field.tap_var = None if meas is None else meas.tap_u**2
+        field.q = q if field.q is None else field.q
     result = compute_loads(body, projected, field, q=q, ref_area=ref_area, p_ref=p_ref, progress=progress)
     result.inputs["taps"] = str(taps_file)
-    return LoadRun(body, projected, field, result)
+    unc = None
+    if meas is not None:
+        from .uncertainty import compute_uncertainty
+
+        with progress.step("bands"):
+            unc = compute_uncertainty(body, projected, q=q, ref_area=result.ref_area_m2, meas=meas, field=field,
+                                      progress=progress)
+    return LoadRun(body, projected, field, result, unc)

@@ -74,8 +74,10 @@ def bands_section_html(unc, *, field_name="field", spread=None, map_png=None, ma
     Parameters
     ----------
     unc : UncertaintyResult
-    field_name : str
-        The field method's description (its figure is shown beside the estimate).
+    field_name : str or None
+        The field method's description (its figure is shown beside the
+        estimate); None when the loads are this model's own estimate (the
+        default method), so there is no second figure to show.
     spread : dict, optional
         Figure name -> max - min over the methods of ``meshpress compare``, and ``"_methods"`` -> names.
     map_png : bytes, optional
@@ -88,21 +90,27 @@ def bands_section_html(unc, *, field_name="field", spread=None, map_png=None, ma
     def num(v, spec):
         return "" if v is None else format(v, spec)
 
+    own = field_name is None
     head = ("<tr><th>figure</th><th>estimate</th><th>u</th><th>95 % interval</th><th>measurement</th>"
-            "<th>sampling</th><th>q</th><th>field</th>" + ("<th>method spread</th>" if spread else "") + "</tr>")
+            "<th>sampling</th><th>q</th>" + ("" if own else "<th>field</th>")
+            + ("<th>method spread</th>" if spread else "") + "</tr>")
     rows = []
     for b in unc.bands:
         force = b.name.endswith(("_N", "_Nm"))  # forces and moments; the rest are coefficients
         spec, us = ("+,.1f", ",.1f") if force else ("+.4f", ".4f")
         cells = [esc(b.name), num(b.value, spec), num(b.u, us), f"[{num(b.lo95, spec)}, {num(b.hi95, spec)}]",
-                 num(b.u_measurement, us), num(b.u_sampling, us), num(b.u_q, us), num(b.field_value, spec)]
+                 num(b.u_measurement, us), num(b.u_sampling, us), num(b.u_q, us)]
+        if not own:
+            cells.append(num(b.field_value, spec))
         if spread:
             cells.append(num(spread.get(b.name), us))
         rows.append("<tr><td>" + cells[0] + "</td>" + "".join(f"<td class=n>{c}</td>" for c in cells[1:]) + "</tr>")
     parts = [
         "<p>Every figure with its standard uncertainty <i>u</i> and 95&nbsp;% interval (estimate &plusmn; 1.96 u). "
-        "The estimate is the kriging model's; <i>field</i> is the field method's own figure "
-        f"({esc(field_name)}). The parts of <i>u</i> add in quadrature.</p>",
+        + ("The estimate is the loads above: the field integrated is the same model whose variance gives the band. "
+           if own else "The estimate is the kriging model's; <i>field</i> is the field method's own figure "
+           f"({esc(field_name)}). ")
+        + "The parts of <i>u</i> add in quadrature.</p>",
         f"<table>{head}{''.join(rows)}</table>",
     ]
     out = field_outside(unc.bands)

@@ -419,8 +419,11 @@ def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | Non
     n_patches : int
         Carrier size when one is built.
     field : Field, optional
-        A fitted linear field (rbf): its figure values are shown beside the
-        kriging ones, with its own measurement uncertainty.
+        A fitted field.  The default method's
+        (:class:`~meshpress.fields.posterior.PosteriorField`, fitted to these
+        taps with these tap variances) is this model: its fit is reused and
+        the other settings here are ignored.  Any other field's figures are
+        shown beside the estimate (``Band.field_value``).
     kernel, length_scale
         Passed to :class:`~meshpress.kriging.SurfaceGP`.
     trend : {"newtonian", "normal", None}
@@ -474,16 +477,21 @@ def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | Non
         raise InputError(f"{len(meas.tap_u)} tap uncertainties for {n} taps")
     wb = body.axles.wheelbase if body.axles is not None else None
     names, G = figure_face_weights(body, kind=taps.kind, q=q, ref_area=ref_area, wheelbase=wb)
-    if carrier is None:
-        carrier = Carrier(body, n_patches, progress=progress)
-    groups, B = carrier.regions(regions)
+    if _same_model(field, body, taps, meas):
+        # The default field is this very model: reuse its fit, so the loads' figure is the band's centre.
+        gp, carrier, groups, B = field.gp_, field.carrier_, field.groups_, field.face_matrix_
+        field = None
+    else:
+        if carrier is None:
+            carrier = Carrier(body, n_patches, progress=progress)
+        groups, B = carrier.regions(regions)
+        T = carrier.points_matrix(taps.points)
+        gp = SurfaceGP.on_carrier(carrier, kernel=kernel, trend=trend, length_scale=length_scale, groups=groups,
+                                  orientation=orientation, orientation_kernel=orientation_kernel,
+                                  normal_anisotropy=None if anisotropy else 1.0,
+                                  **stagnation_params(trend, taps.kind, q, stagnation_prior))
+        gp.fit(T, taps.values, meas.tap_u**2)
     a = carrier.fine_weights(G, B)
-    T = carrier.points_matrix(taps.points)
-    gp = SurfaceGP.on_carrier(carrier, kernel=kernel, trend=trend, length_scale=length_scale, groups=groups,
-                              orientation=orientation, orientation_kernel=orientation_kernel,
-                              normal_anisotropy=None if anisotropy else 1.0,
-                              **stagnation_params(trend, taps.kind, q, stagnation_prior))
-    gp.fit(T, taps.values, meas.tap_u**2)
     mean, var, Wk = gp.figures(a)
     closure = G.sum(axis=0)
     v_meas = measurement_var(Wk, meas, closure)
@@ -517,3 +525,11 @@ def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | Non
     res = UncertaintyResult(bands, face_sd, G, names, gp.describe(), taps.kind, notes, Wk)
     res.gp, res.carrier = gp, carrier
     return res
+
+
+def _same_model(field, body, taps, meas) -> bool:
+    """True when ``field`` is a fitted default (posterior) field of this body and taps, with these tap variances."""
+    from .fields.posterior import PosteriorField
+
+    return (isinstance(field, PosteriorField) and getattr(field, "gp_", None) is not None and field.body_ is body
+            and field.taps_ is taps and np.allclose(field.tap_var_, meas.tap_u**2))

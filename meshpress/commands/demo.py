@@ -41,7 +41,7 @@ def run(args) -> int:
     from ..analysis import resolve_q, run_loads_parts
     from ..progress import Progress
     from ..results import write_json
-    from ..textreport import format_result
+    from .loads import bands_measurement, format_loads, write_loads_report
 
     d = sample_dir()
     mesh = d / ("coupe_scan.stl" if args.scan else "coupe.stl")
@@ -49,48 +49,28 @@ def run(args) -> int:
     progress = Progress(enabled=False if args.quiet else None)
     q = resolve_q(speed=DEMO_SPEED_KMH / 3.6)
     print(f"meshpress demo: {mesh.name} with {taps.name} at {DEMO_SPEED_KMH:g} km/h (INVENTED DEMO DATA)\n")
-    run = run_loads_parts(mesh, taps, q=q, progress=progress, **DEMO_SETTINGS)
-    result = run.result
-    print(format_result(result))
-    unc = None
-    if not args.no_bands:
-        from ..uncertainty import Measurement, compute_uncertainty, sensor_u
-        from .uncertainty import format_bands
-
-        meas = Measurement.build(len(run.taps), sensor=sensor_u(DEMO_SENSOR_PA))
-        with progress.step("kriging bands"):
-            unc = compute_uncertainty(run.body, run.taps, q=q, ref_area=result.ref_area_m2, meas=meas,
-                                      field=run.field, progress=progress)
-        print()
-        print(format_bands(unc, run.field.describe()))
-        print(f"  (demo: sensors stated at +/- {DEMO_SENSOR_PA:g} Pa; the same bands with your own data: meshpress "
-              "uncertainty --help)")
+    run = run_loads_parts(mesh, taps, q=q, progress=progress,
+                          bands=None if args.no_bands else bands_measurement(DEMO_SENSOR_PA), **DEMO_SETTINGS)
+    print(format_loads(run))
+    if run.bands is not None:
+        print(f"  (demo: sensors stated at +/- {DEMO_SENSOR_PA:g} Pa; the same with your own data: meshpress loads "
+              "--help)")
     out = Path(args.out)
     out.mkdir(parents=True, exist_ok=True)
-    bands = {"uncertainty": unc.to_dict()} if unc is not None else {}
-    from ..report import missing_libraries, write_report
+    bands = {"uncertainty": run.bands.to_dict()} if run.bands is not None else {}
+    from ..report import missing_libraries
 
     missing = [] if args.no_report else missing_libraries()
     if args.no_report or missing:  # with a report, the report writes loads.json (json_extra)
-        write_json({**result.to_dict(), **bands}, out / "loads.json", protect=(mesh, taps))
+        write_json({**run.result.to_dict(), **bands}, out / "loads.json", protect=(mesh, taps))
         print(f"\n  wrote {out / 'loads.json'}")
         if missing:
             print(f"  no report: it needs {', '.join(missing)} (pip install {' '.join(missing)})")
         return 0
-    sections, extra = (), None
-    if unc is not None:
-        from ..bandreport import bands_section_html, importance_png
-
-        with progress.step("rendering the map"):
-            png = importance_png(unc, run.body, run.taps, "CL")
-        sections = [("How sure is the number", bands_section_html(unc, field_name=run.field.describe(),
-                                                                  map_png=png, map_figure="CL"))]
-        extra = {"map_CL": png}
-    files = write_report(run, out, protect=(mesh, taps), progress=progress,
-                         title=f"meshpress demo: {mesh.name}",
-                         demo_note="INVENTED DEMO DATA: a made-up coupe and made-up readings, to show what "
-                                   "meshpress does. Not a measurement of any car.",
-                         sections=sections, extra_images=extra, json_extra=bands)
+    files = write_loads_report(run, out, protect=(mesh, taps), progress=progress,
+                               title=f"meshpress demo: {mesh.name}",
+                               demo_note="INVENTED DEMO DATA: a made-up coupe and made-up readings, to show what "
+                                         "meshpress does. Not a measurement of any car.")
     print(f"\n  wrote {files.json}")
     print(f"  wrote {files.html} (open it in a browser) and the files beside it")
     return 0

@@ -16,6 +16,11 @@ def add_parser(sub):
     add_body_options(p)
     add_flow_options(p)
     add_field_options(p)
+    p.add_argument("--no-bands", action="store_true",
+                   help="skip the bands (standard uncertainty and 95 %% interval of every figure): faster")
+    p.add_argument("--sensor-accuracy", type=float, default=0.0, metavar="A",
+                   help="stated accuracy of the pressure sensors, +/- A in the taps' unit (read as a rectangular "
+                        "half-width; default 0: the model's fitted noise only)")
     p.add_argument("--json", metavar="OUT", help="write the result as JSON to OUT")
     p.add_argument("--report", metavar="DIR", help="write a shareable report to DIR: report.html (self-contained), "
                    "loads.json, body_field.vtp, taps.csv and the pictures")
@@ -28,7 +33,6 @@ def run(args) -> int:
     from ..analysis import resolve_q, run_loads_parts
     from ..progress import Progress
     from ..results import check_not_input, write_json
-    from ..textreport import format_result
 
     progress = Progress(enabled=False if args.quiet else None)
     q = resolve_q(args.q, speed_mps(args.speed), args.air_density)
@@ -43,17 +47,56 @@ def run(args) -> int:
         front_axle=args.front_axle, rear_axle=args.rear_axle, ground=args.ground,
         pressure_unit=args.pressure_unit, max_tap_distance=max_distance_m(args.max_tap_distance, args.length_unit),
         method=args.method, method_settings=method_settings(args), q=q, ref_area=args.ref_area,
-        p_ref=args.p_ref, progress=progress,
+        p_ref=args.p_ref, bands=None if args.no_bands else bands_measurement(args.sensor_accuracy),
+        progress=progress,
     )
-    result = run.result
-    print(format_result(result))
+    print(format_loads(run))
+    extra = {} if run.bands is None else {"uncertainty": run.bands.to_dict()}
     if args.json:
-        write_json(result, args.json, protect=(args.mesh, args.taps))
+        write_json({**run.result.to_dict(), **extra}, args.json, protect=(args.mesh, args.taps))
         print(f"\n  wrote {args.json}")
     if args.report:
-        from ..report import write_report  # pyvista and matplotlib load only here
-
-        files = write_report(run, args.report, protect=(args.mesh, args.taps), progress=progress)
+        files = write_loads_report(run, args.report, protect=(args.mesh, args.taps), progress=progress)
         print(f"\n  wrote {files.html} (open it in a browser) and the files beside it")
     return 0
+
+
+def bands_measurement(sensor_accuracy=0.0) -> dict:
+    """``bands`` argument of :func:`meshpress.analysis.run_loads_parts` for a stated sensor accuracy."""
+    from ..uncertainty import sensor_u
+
+    return {"sensor": sensor_u(sensor_accuracy)}
+
+
+def format_loads(run) -> str:
+    """The loads table; with bands of the same model, one answer per figure with its band on its row; with
+    bands of another method's field, the bands' own table below (the field column beside the estimate)."""
+    from ..fields.posterior import PosteriorField
+    from ..textreport import format_result
+    from .uncertainty import format_bands
+
+    if run.bands is None:
+        return format_result(run.result)
+    if isinstance(run.field, PosteriorField):
+        return format_result(run.result, bands=run.bands)
+    return format_result(run.result) + "\n\n" + format_bands(run.bands, run.field.describe())
+
+
+def write_loads_report(run, out, *, protect, progress, **kw):
+    """The HTML report of a run, with its bands' section when it has bands (pyvista and matplotlib load here)."""
+    from ..fields.posterior import PosteriorField
+    from ..report import write_report
+
+    sections, extra, json_extra = (), None, None
+    if run.bands is not None:
+        from ..bandreport import bands_section_html, importance_png
+
+        own = isinstance(run.field, PosteriorField)
+        with progress.step("rendering the map"):
+            png = importance_png(run.bands, run.body, run.taps, "CL")
+        sections = [("How sure is the number", bands_section_html(
+            run.bands, field_name=None if own else run.field.describe(), map_png=png, map_figure="CL"))]
+        extra, json_extra = {"map_CL": png}, {"uncertainty": run.bands.to_dict()}
+    return write_report(run, out, protect=protect, progress=progress, sections=sections, extra_images=extra,
+                        json_extra=json_extra, **kw)
 

@@ -97,14 +97,16 @@ def gp_trend(args):
 def add_field_options(p, method_help=None):
     """Field options; ``method_help`` replaces the help of ``--method`` and makes its default None (so a
     command can tell whether it was given)."""
-    from ..fields import METHODS
+    from ..fields import DEFAULT_METHOD, METHODS
     from ..fields.bounds import EXTRAPOLATION
     from ..fields.kernels import GEODESIC_KERNELS
     from ..fields.rbf import KERNELS
 
     g = p.add_argument_group("pressure field (docs/methods.md)")
     if method_help is None:
-        g.add_argument("--method", default="rbf", help="field method: " + ", ".join(METHODS) + " (default rbf)")
+        g.add_argument("--method", default=DEFAULT_METHOD, help="field method: " + ", ".join(METHODS)
+                       + f" (default {DEFAULT_METHOD}: the posterior mean of the model that gives the bands, so "
+                       "the figures are the centres of their bands; docs/accuracy.md)")
     else:
         g.add_argument("--method", default=None, metavar="NAME", help=method_help)
     g.add_argument("--kernel", default=None, help="RBF kernel: " + ", ".join(KERNELS)
@@ -185,6 +187,12 @@ def method_settings(args, method=None) -> dict:
         trend = {None: "newtonian", "constant": None}.get(args.trend, args.trend)
         s = {"kernel": args.kernel or "loo", "trend": trend, "stagnation": stagnation_prior(args, "auto"),
              "orientation": args.orientation != "off", "q": _flow_q(args), **common}
+    elif method == "posterior":
+        if args.trend == "auto":
+            raise InputError("--trend auto is for the geodesic method; posterior takes constant, normal or newtonian")
+        trend = {None: "newtonian", "constant": None}.get(args.trend, args.trend)
+        s = {"kernel": args.kernel or "auto", "trend": trend, "stagnation": stagnation_prior(args, True),
+             "orientation": args.orientation != "off", "q": _flow_q(args)}
     else:
         s = {}
     if args.regions is not None:

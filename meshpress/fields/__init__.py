@@ -12,12 +12,14 @@ from .biharmonic import BiharmonicField, HarmonicField
 from .geodesic_rbf import GeodesicRBFField
 from .kriging_field import KrigingField
 from .nearest import NearestTapField
+from .posterior import PosteriorField
 from .rbf import RBFField
 from .regional import RegionalField
 from .strip import CentreLineStripField
 
-#: name -> factory taking keyword settings.
+#: name -> factory taking keyword settings; the first is the default (:data:`DEFAULT_METHOD`).
 METHODS: dict[str, type] = {
+    "posterior": PosteriorField,
     "rbf": RBFField,
     "geodesic": GeodesicRBFField,
     "biharmonic": BiharmonicField,
@@ -27,8 +29,10 @@ METHODS: dict[str, type] = {
     "kriging": KrigingField,
 }
 
+DEFAULT_METHOD = "posterior"
 
-def make_field(method: str = "rbf", *, regions=None, empty_value=None, **settings) -> Field:
+
+def make_field(method: str = DEFAULT_METHOD, *, regions=None, empty_value=None, **settings) -> Field:
     """Create an unfitted field method by name.
 
     Parameters
@@ -44,7 +48,9 @@ def make_field(method: str = "rbf", *, regions=None, empty_value=None, **setting
     """
     if method not in METHODS:
         raise InputError(f"--method {method!r} is not one of: {', '.join(METHODS)}")
-    if regions is not None:
+    if regions is not None and METHODS[method] is PosteriorField:
+        settings = {**settings, "regions": regions}  # one model with independent regions, as the bands
+    elif regions is not None:
         return RegionalField(method, regions, empty_value, settings)
     try:
         return METHODS[method](**settings)
@@ -54,4 +60,4 @@ def make_field(method: str = "rbf", *, regions=None, empty_value=None, **setting
 
 __all__ = ["Field", "NotFittedError", "METHODS", "make_field", "RBFField", "GeodesicRBFField",
            "BiharmonicField", "HarmonicField", "NearestTapField", "CentreLineStripField", "RegionalField",
-           "KrigingField"]
+           "KrigingField", "PosteriorField", "DEFAULT_METHOD"]

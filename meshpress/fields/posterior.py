@@ -1,0 +1,99 @@
+"""The default field: the surface Gaussian process whose posterior also gives the bands.
+
+One model gives both the number and its band.  The field integrated into the
+loads is the posterior mean of :class:`meshpress.kriging.SurfaceGP`, fitted
+with the settings of ``meshpress uncertainty`` (kernel by marginal likelihood,
+Newtonian trend centred on stagnation, normals' factor on); the bands of
+:func:`meshpress.uncertainty.compute_uncertainty` reuse this very fit.  Every
+figure is linear in the face values, and the face values here are
+``B @ m`` (the carrier's face matrix times the posterior mean at its nodes)
+with no clamping, so the integrated figure *is* the centre of its band
+(Bayesian quadrature, O'Hagan 1991; Rasmussen and Williams 2006, ch. 2).
+
+It differs from ``kriging`` (:mod:`meshpress.fields.kriging_field`) in the
+kernel choice (likelihood, not leave-one-out) and in leaving the posterior
+mean unbounded; docs/accuracy.md ("The default method") measures both.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .base import Field
+
+
+class PosteriorField(Field):
+    """Posterior mean of the bands' surface Gaussian process.
+
+    Parameters
+    ----------
+    kernel : str
+        Correlation along the surface (``"auto"``, the default: the one of
+        highest marginal likelihood among :data:`meshpress.gpkernels.AUTO_KERNELS`).
+    patches : int
+        Carrier size (patches of the covariance).
+    trend : {"newtonian", "normal", None}
+    orientation : bool
+        Correlation also falls with the angle between the surface normals.
+    orientation_kernel : str
+    stagnation : {True, False, "auto"}
+        Centre the Newtonian impact term on full stagnation pressure.
+    q : float, optional
+        Dynamic pressure, Pa (stagnation level of readings in Pa).
+    tap_var : (n,) float, optional
+        Stated variance of each tap's reading (taps' unit squared): the
+        measurement part of the bands, which the fit takes as known noise.
+    regions : str or (m,) array, optional
+        Regions modelled as independent fields (:mod:`meshpress.regions`).
+    carrier : Carrier, optional
+        Reused when it belongs to the body being fitted.
+    """
+
+    name = "posterior"
+
+    def __init__(self, kernel="auto", patches=2500, trend="newtonian", orientation=True,
+                 orientation_kernel="matern52", stagnation=True, q=None, tap_var=None, regions=None, carrier=None):
+        self.kernel = kernel
+        self.patches = patches
+        self.trend = trend
+        self.orientation = orientation
+        self.orientation_kernel = orientation_kernel
+        self.stagnation = stagnation
+        self.q = q
+        self.tap_var = tap_var
+        self.regions = regions
+        self.carrier = carrier
+
+    def _fit(self, body, taps, progress):
+        from ..errors import InputError
+        from ..gptrend import stagnation_params
+        from ..kriging import SurfaceGP
+        from ..patches import Carrier
+
+        if len(taps) < 3:
+            raise InputError(f"the {self.name} method needs at least 3 taps, got {len(taps)}")
+        carrier = self.carrier
+        if carrier is None or carrier.body is not body:
+            carrier = Carrier(body, self.patches, progress=progress)
+        groups, B = carrier.regions(self.regions)
+        T = carrier.points_matrix(taps.points)
+        gp = SurfaceGP.on_carrier(carrier, kernel=self.kernel, trend=self.trend, groups=groups,
+                                  orientation=self.orientation, orientation_kernel=self.orientation_kernel,
+                                  **stagnation_params(self.trend, taps.kind, self.q, self.stagnation))
+        tv = None if self.tap_var is None else np.asarray(self.tap_var, float).reshape(len(taps))
+        gp.fit(T, taps.values, tv)
+        self.carrier_, self.groups_, self.face_matrix_, self.gp_ = carrier, groups, B, gp
+        self.tap_var_ = np.zeros(len(taps)) if tv is None else tv
+        self.node_values_ = gp.node_mean()
+
+    def _face_values(self, progress):
+        return np.asarray(self.face_matrix_ @ self.node_values_)
+
+    def loo_residuals(self) -> np.ndarray:
+        from .kriging_field import _loo
+
+        self._check()
+        return _loo(self.gp_)
+
+    def describe(self) -> str:
+        return getattr(self, "gp_", None) and f"posterior of {self.gp_.describe()}" or "posterior (surface GP)"
