@@ -61,7 +61,8 @@ def _png(img: np.ndarray) -> bytes:
     from PIL import Image
 
     buf = io.BytesIO()
-    Image.fromarray(np.asarray(img, dtype=np.uint8)).save(buf, format="PNG")
+    # zlib level 1: the renders have large flat areas, so the file is barely larger and it writes ~5x faster.
+    Image.fromarray(np.asarray(img, dtype=np.uint8)).save(buf, format="PNG", compress_level=1)
     return buf.getvalue()
 
 

@@ -191,6 +191,10 @@ def method_settings(args, method=None) -> dict:
         if args.trend == "auto":
             raise InputError("--trend auto is for the geodesic method; posterior takes constant, normal or newtonian")
         trend = {None: "newtonian", "constant": None}.get(args.trend, args.trend)
+        bad = [k for k in (args.kernel or "auto").split(",") if k not in ("auto",) + KRIGING_KERNELS]
+        if bad:
+            raise InputError(f"--kernel {bad[0]!r} is not one of the posterior method's: "
+                             + ", ".join(("auto",) + KRIGING_KERNELS))
         s = {"kernel": args.kernel or "auto", "trend": trend, "stagnation": stagnation_prior(args, True),
              "orientation": args.orientation != "off", "q": _flow_q(args)}
     else:

@@ -151,7 +151,7 @@ def run(args) -> int:
     from ..analysis import compute_loads, resolve_q
     from ..coefficients import ISA_RHO
     from ..errors import InputError
-    from ..fields import make_field
+    from ..fields import DEFAULT_METHOD, PosteriorField, make_field
     from ..progress import Progress
     from ..results import _clean, check_not_input, write_atomic
     from ..textreport import format_result
@@ -192,17 +192,24 @@ def run(args) -> int:
 
     def settings(name=None):
         s = method_settings(args, name)
-        return {**s, "carrier": carrier} if (name or args.method) == "kriging" else s
+        return {**s, "carrier": carrier} if (name or args.method) in ("kriging", "posterior") else s
 
-    field = make_field(args.method, **settings())
-    loads = compute_loads(body, taps, field, q=q, ref_area=args.ref_area, p_ref=args.p_ref, progress=progress)
-    loads.inputs["taps"] = str(args.taps)
     tap_u = read_tap_u(args.taps, taps.names, taps.kind, args.pressure_unit)
     u_q_rel = (q_relative_u(q=q, u_q=args.u_q) if args.q is not None else
                q_relative_u(speed=speed, u_speed=_u_speed(args, speed), rho=args.air_density or ISA_RHO,
                             u_rho=args.u_air_density))
     sensor = _sensor(args, taps.kind)
     meas = Measurement.build(len(taps), tap_u=tap_u, sensor=sensor, u_p_ref=args.u_p_ref, u_q_rel=u_q_rel)
+    if args.method == DEFAULT_METHOD:
+        # The default field is the bands' model itself, with this command's model options: one fit, one answer.
+        field = PosteriorField(kernel=args.kernel_gp, trend=gp_trend(args), orientation=args.orientation_gp == "on",
+                               orientation_kernel=args.orientation_kernel, anisotropy=args.anisotropy_gp == "on",
+                               stagnation=stagnation_prior(args), q=q, tap_var=meas.tap_u**2, regions=args.regions,
+                               carrier=carrier)
+    else:
+        field = make_field(args.method, **settings())
+    loads = compute_loads(body, taps, field, q=q, ref_area=args.ref_area, p_ref=args.p_ref, progress=progress)
+    loads.inputs["taps"] = str(args.taps)
     gp_kw = dict(q=q, ref_area=loads.ref_area_m2, carrier=carrier, kernel=args.kernel_gp, regions=args.regions,
                  orientation=args.orientation_gp == "on", orientation_kernel=args.orientation_kernel,
                  anisotropy=args.anisotropy_gp == "on", trend=gp_trend(args),
@@ -375,8 +382,12 @@ def format_bands(unc, field_name="field") -> str:
                      f"{'[' + format(b.lo95, spec) + ', ' + format(b.hi95, spec) + ']':<24}"
                      f"{format(b.u_measurement, uspec):>9}{format(b.u_sampling, uspec):>9}{format(b.u_q, uspec):>8}"
                      f"   {fv:>10}")
-    lines += ["", f"  model: {unc.model}", f"  field column: {field_name} (its difference from the estimate is "
-              "one sign of the method spread)"]
+    lines += ["", f"  model: {unc.model}"]
+    if any(b.field_value is not None for b in unc.bands):
+        lines.append(f"  field column: {field_name} (its difference from the estimate is one sign of the method "
+                     "spread)")
+    else:
+        lines.append("  the estimate is the loads above: the field integrated is this model's posterior mean")
     out = field_outside(unc.bands)
     if out:
         lines.append("  outside the band: the field's " + ", ".join(

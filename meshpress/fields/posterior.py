@@ -47,12 +47,15 @@ class PosteriorField(Field):
         Regions modelled as independent fields (:mod:`meshpress.regions`).
     carrier : Carrier, optional
         Reused when it belongs to the body being fitted.
+    anisotropy : bool
+        Fit a weight of the normals' streamwise part in the normals' factor.
     """
 
     name = "posterior"
 
     def __init__(self, kernel="auto", patches=2500, trend="newtonian", orientation=True,
-                 orientation_kernel="matern52", stagnation=True, q=None, tap_var=None, regions=None, carrier=None):
+                 orientation_kernel="matern52", stagnation=True, q=None, tap_var=None, regions=None, carrier=None,
+                 anisotropy=False):
         self.kernel = kernel
         self.patches = patches
         self.trend = trend
@@ -63,6 +66,7 @@ class PosteriorField(Field):
         self.tap_var = tap_var
         self.regions = regions
         self.carrier = carrier
+        self.anisotropy = anisotropy
 
     def _fit(self, body, taps, progress):
         from ..errors import InputError
@@ -79,6 +83,7 @@ class PosteriorField(Field):
         T = carrier.points_matrix(taps.points)
         gp = SurfaceGP.on_carrier(carrier, kernel=self.kernel, trend=self.trend, groups=groups,
                                   orientation=self.orientation, orientation_kernel=self.orientation_kernel,
+                                  normal_anisotropy=None if self.anisotropy else 1.0,
                                   **stagnation_params(self.trend, taps.kind, self.q, self.stagnation))
         tv = None if self.tap_var is None else np.asarray(self.tap_var, float).reshape(len(taps))
         gp.fit(T, taps.values, tv)
