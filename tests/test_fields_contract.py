@@ -185,7 +185,9 @@ def test_extrapolation_is_bounded(sphere):
     pts = fibonacci_sphere(200)
     pts = pts[pts[:, 0] > 0.5]
     taps = make_taps(sphere, pts, 3.0 * pts[:, 0])
-    for method in ALL:
+    # Every method but the default, whose field is the unclamped posterior mean so that each figure is the centre
+    # of its band (tests/test_default_method.py).
+    for method in [m for m in ALL if m != "posterior"]:
         f = make_field(method).fit(sphere, taps)
         v = f.face_values()
         assert v.min() >= taps.values.min() - 1e-12 and v.max() <= taps.values.max() + 1e-12, method

@@ -58,7 +58,7 @@ def test_archimedes_sample_body_through_pipeline_with_axle_split(tmp_path, sampl
     table = read_taps(samples_dir / "coupe_taps.csv")
     taps = meshpress.project_taps(body, table)
     p = RHO_W * G * (2.0 - taps.points[:, 2])
-    res = meshpress.compute_loads(body, taps.with_values(p), ref_area=2.0)
+    res = meshpress.compute_loads(body, taps.with_values(p), meshpress.make_field("rbf"), ref_area=2.0)
     mesh = trimesh.load(samples_dir / "coupe.stl")  # independent volume (trimesh mass properties)
     V = mesh.volume * 1e-9
     assert res.lift_N == pytest.approx(RHO_W * G * V, rel=2e-3)

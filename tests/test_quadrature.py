@@ -51,8 +51,9 @@ def test_clustered_loads_close_to_every_face(samples_dir):
     kw = dict(length_unit="mm", up="+y", forward="-z", front_axle=-250.0, rear_axle=2350.0)
     body = meshpress.load_body(samples_dir / "coupe.stl", **kw)
     taps = meshpress.project_taps(body, read_taps(samples_dir / "coupe_taps.csv"))
-    a = meshpress.compute_loads(body, taps, q=472.6, quadrature="faces")
-    b = meshpress.compute_loads(body, taps, q=472.6, quadrature="clusters")
+    # The thin-plate RBF: a method that can be evaluated at any surface point (the default gives face values).
+    a = meshpress.compute_loads(body, taps, meshpress.make_field("rbf"), q=472.6, quadrature="faces")
+    b = meshpress.compute_loads(body, taps, meshpress.make_field("rbf"), q=472.6, quadrature="clusters")
     assert a.quadrature == "every face" and b.quadrature.startswith("clustered")
     for k in ("CL", "CLF", "CLR", "CD"):
         assert getattr(b, k) == pytest.approx(getattr(a, k), abs=2e-3), k

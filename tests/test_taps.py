@@ -99,7 +99,7 @@ def test_centre_line_taps_fall_back_to_constant_term(tmp_path, small_car):
     t = read_taps(write_taps(tmp_path / "c.csv", [f"c{i}" for i in range(len(pts))],
                              body.frame.to_mesh(pts), rng.normal(0, 1, len(pts))))
     pj = meshpress.project_taps(body, t, max_distance=0.05)
-    res = meshpress.compute_loads(body, pj, q=100.0)
+    res = meshpress.compute_loads(body, pj, meshpress.make_field("rbf"), q=100.0)
     assert any("lie in one plane" in w for w in res.warnings)
     assert np.isfinite(res.CL)
 
