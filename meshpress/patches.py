@@ -73,7 +73,8 @@ class Carrier:
             from .errors import InputError
 
             raise InputError(f"could not simplify the body below {len(vc)} vertices for the covariance "
-                             f"(wanted about {n_vertices}); clean the mesh or lower its size first")
+                             f"(wanted about {n_vertices}); clean the mesh or lower its size first, or skip the "
+                             "covariance: --method rbf --no-bands")
         self.body = body
         self.vertices, self.faces = vc, fc
         self.normals = _vertex_normals(vc, fc)
