@@ -23,7 +23,7 @@ import numpy as np
 from . import __version__
 from .analysis import compute_loads
 from .errors import InputError
-from .fields import METHODS, make_field
+from .fields import DEFAULT_METHOD, METHODS, make_field
 from .progress import Progress
 from .results import CAUTION
 
@@ -176,8 +176,6 @@ def summary(rows, spread, best) -> str:
         s += " Between methods " + ", ".join(parts) + "."
     elif spread.get("lift_N") is not None:
         s += f" Between methods the lift moves by {spread['lift_N']:.1f} N."
-    from .fields import DEFAULT_METHOD
-
     if best != DEFAULT_METHOD and any(r["method"] == DEFAULT_METHOD for r in rows):
         s += (f" The default ({DEFAULT_METHOD}, the one 'meshpress loads' uses and whose bands it prints) is not the "
               f"recommendation for these taps: compare its figures with {best}'s above, and use --method {best} "

@@ -686,6 +686,27 @@ class SurfaceGP:
             mean = mean + a.T @ self.prior_nodes_
         return mean, var, w
 
+    def conditioned_on(self, y) -> "SurfaceGP":
+        """The same fitted model (kernel, hyperparameters, noise) given other readings at the same taps.
+
+        Parameters
+        ----------
+        y : (n,) float
+            New tap values, same unit as the fit's.
+
+        Returns
+        -------
+        SurfaceGP
+            A shallow copy sharing the factorised covariance; its posterior
+            mean is the same linear map of ``y`` (plus the prior mean's
+            constant) as this one's of the fitted readings.
+        """
+        self._check()
+        y = np.asarray(y, float).reshape(len(self.y_))
+        g = copy.copy(self)
+        g.y_ = y if self.prior_nodes_ is None else y - self.TN_ @ self.trend_mean
+        return g
+
     def node_mean(self) -> np.ndarray:
         """(n_c,) float: posterior mean at the nodes."""
         self._check()

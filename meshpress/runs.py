@@ -4,14 +4,20 @@ The body is loaded and the taps are projected once; every run and every
 configuration then goes through :func:`~meshpress.analysis.compute_loads` with
 :meth:`ProjectedTaps.with_values`.  Runs of one configuration are averaged tap
 by tap (equal weights), which for a linear field method is the same as
-averaging their loads.
+averaging their loads; the default field is fitted once per configuration
+and each run's figures come from that fitted model, so it holds there too.
 
 Hook for the report: :func:`configuration_results` returns the per-
 configuration results (each with its :class:`LoadResult`, per-face Cp and the
 runs behind it); :attr:`TestResult.body` is the loaded body.
 
-With bands (``[uncertainty] bands = true`` or ``process_sheet(..., bands=True)``)
-every configuration also gets its figures with a standard uncertainty from a
+With the default field method (the posterior of the bands' surface Gaussian
+process, :mod:`meshpress.fields.posterior`) the bands are on unless the sheet
+says ``[uncertainty] bands = false``: one carrier serves every fit, each
+configuration's loads are fitted with its taps' measurement variances, and the
+bands reuse that fit, so each figure is the centre of its band.  With another
+method they are off unless ``bands = true`` (or ``process_sheet(..., bands=True)``).
+With bands every configuration also gets its figures with a standard uncertainty from a
 kriging model along the surface (:func:`meshpress.uncertainty.compute_uncertainty`),
 each tap's measurement uncertainty being the standard error of its mean over
 the runs' steady windows, and every comparison the band of its change
@@ -29,7 +35,8 @@ import numpy as np
 from .analysis import compute_loads
 from .body import load_body
 from .errors import InputError
-from .fields import make_field
+from .fields import DEFAULT_METHOD, make_field
+from .fields.posterior import PosteriorField
 from .progress import Progress
 from .projection import project_taps
 from .readings import Series, TapStats, pressure_coefficients, read_series, steady_window, tap_statistics
@@ -157,6 +164,7 @@ class TestResult:
     warnings: list = field(default_factory=list)
     changes: list = field(default_factory=list)
     bands_seconds: float | None = None
+    carrier: object = None
 
 
 def face_values(load: LoadResult) -> np.ndarray | None:
@@ -296,7 +304,8 @@ def process_sheet(sheet: Sheet, progress: Progress | None = None, *, bands: bool
     progress : Progress, optional
     bands : bool, optional
         Compute the bands of every configuration and comparison; default the
-        sheet's ``[uncertainty] bands``.
+        sheet's ``[uncertainty] bands``, and when it is not stated, on with
+        the default field method.
 
     Returns
     -------
@@ -332,9 +341,24 @@ def process_sheet(sheet: Sheet, progress: Progress | None = None, *, bands: bool
     else:
         area_src = "given in the sheet"
 
-    def loads(cp, q):
-        r = compute_loads(body, taps.with_values(cp), make_field(sheet.method, **sheet.method_settings), q=q,
-                          ref_area=ref_area)
+    st = sheet.bands
+    want_bands = bands if bands is not None else (st.enabled if st.enabled is not None
+                                                   else sheet.method == DEFAULT_METHOD)
+    carrier = None
+    if sheet.method == PosteriorField.name:
+        from .patches import Carrier
+
+        with progress.step("covariance patches"):
+            carrier = Carrier(body, st.patches, progress=progress)
+
+    def loads(cp, q, tap_var=None, like=None):
+        if carrier is not None:
+            # The bands' model with the bands' settings, on the one carrier; tap_var makes it the bands' very fit.
+            fld = PosteriorField(kernel=st.kernel, orientation=st.orientation, patches=st.patches, carrier=carrier,
+                                 tap_var=tap_var, like=like, **sheet.method_settings)
+        else:
+            fld = make_field(sheet.method, **sheet.method_settings)
+        r = compute_loads(body, taps.with_values(cp), fld, q=q, ref_area=ref_area)
         r.ref_area_source = area_src
         r.inputs["sheet"] = str(sheet.path)
         return r
@@ -343,9 +367,7 @@ def process_sheet(sheet: Sheet, progress: Progress | None = None, *, bands: bool
     for run, series, zero in progress.track(data, len(data), "runs"):
         rho = rho0 if run.air is None else run.air.density(f"{sheet.path.name}: {run.where}.air")[0]
         reading = named(reduce_run, run, series, rho, zero)
-        load = loads(reading.cp, reading.q_Pa)
-        load.inputs["readings"] = str(run.readings)
-        runs.append(RunResult(run, reading, load))
+        runs.append(RunResult(run, reading, None))
 
     configs = {}
     for name in sheet.configurations:
@@ -354,7 +376,14 @@ def process_sheet(sheet: Sheet, progress: Progress | None = None, *, bands: bool
         cp = cps.mean(axis=0)
         q = float(np.mean([r.reading.q_Pa for r in members]))
         rho = float(np.mean([r.reading.rho for r in members]))
-        load = loads(cp, q)
+        tap_var = configuration_errors(members, st.sensor_u_Pa).measurement().tap_u ** 2 if want_bands else None
+        with progress.step(f"loads of {name}"):
+            load = loads(cp, q, tap_var)
+            for r in members:
+                # Each run through the configuration's own fitted model (the posterior mean is linear in the
+                # readings once its hyperparameters are fixed), so the runs' figures average to the configuration's.
+                r.load = loads(r.reading.cp, r.reading.q_Pa, like=load.field if carrier is not None else None)
+                r.load.inputs["readings"] = str(r.run.readings)
         spread = {}
         for k in FIGURES:
             vals = [getattr(r.load, k) for r in members]
@@ -381,8 +410,8 @@ def process_sheet(sheet: Sheet, progress: Progress | None = None, *, bands: bool
         face_values(load)
         configs[name] = ConfigurationResult(name, members, cp, np.ptp(cps, axis=0), load, spread, rho, sp, warnings)
     comparisons = [compare_configurations(configs[a], configs[b], names) for a, b in sheet.compare]
-    result = TestResult(sheet, body, taps, runs, configs, comparisons, list(air_notes))
-    if sheet.bands.enabled if bands is None else bands:
+    result = TestResult(sheet, body, taps, runs, configs, comparisons, list(air_notes), carrier=carrier)
+    if want_bands:
         add_bands(result, progress)
     return result
 
@@ -430,12 +459,18 @@ def add_bands(result: TestResult, progress: Progress | None = None) -> TestResul
     t0 = time.perf_counter()
     st = result.sheet.bands
     body, taps = result.body, result.taps
-    with progress.step("covariance patches"):
-        carrier = Carrier(body, st.patches, progress=progress)
+    carrier = result.carrier
+    if carrier is None:
+        with progress.step("covariance patches"):
+            carrier = Carrier(body, st.patches, progress=progress)
     for name, c in result.configurations.items():
         c.errors = configuration_errors(c.runs, st.sensor_u_Pa)
+        fld = c.load.field
+        # The default field's own taps, so that its fit is recognised and reused (one model, one answer).
+        t = fld.taps_ if isinstance(fld, PosteriorField) and getattr(fld, "taps_", None) is not None \
+            else taps.with_values(c.cp)
         with progress.step(f"bands of {name}"):
-            c.bands = compute_uncertainty(body, taps.with_values(c.cp), q=c.load.q_Pa, ref_area=c.load.ref_area_m2,
+            c.bands = compute_uncertainty(body, t, q=c.load.q_Pa, ref_area=c.load.ref_area_m2,
                                           meas=c.errors.measurement(), carrier=carrier, field=c.load.field,
                                           kernel=st.kernel, orientation=st.orientation, progress=progress)
         if any(r.reading.samples < 2 for r in c.runs):
@@ -444,6 +479,8 @@ def add_bands(result: TestResult, progress: Progress | None = None) -> TestResul
     for d in result.comparisons:
         a, b = result.configurations[d["base"]], result.configurations[d["other"]]
         fa, fb = face_values(a.load), face_values(b.load)
+        if isinstance(a.load.field, PosteriorField):
+            fa = fb = None  # the configurations' figures are the bands' own: no second estimate to set beside
         with progress.step(f"band of {b.name} vs {a.name}"):
             # q differs between configurations, so only the coefficients' change is a linear figure (q=None).
             ch = compute_change(body, taps, a.cp, b.cp, err_base=a.errors, err_other=b.errors,

@@ -98,8 +98,10 @@ class BandSettings:
 
     Attributes
     ----------
-    enabled : bool
+    enabled : bool or None
         Compute the bands (``bands = true``, or ``meshpress run --bands``).
+        None (not stated): on with the default field method, whose fit the
+        bands reuse, off with any other.
     patches : int
         Carrier patches for the covariance.
     kernel : str
@@ -113,7 +115,7 @@ class BandSettings:
         Correlation of the systematic errors between configurations (0 to 1).
     """
 
-    enabled: bool = False
+    enabled: bool | None = None
     patches: int = 2500
     kernel: str = "auto"
     orientation: bool = True
@@ -194,7 +196,7 @@ class Sheet:
     runs: list
     max_tap_distance_m: float = TOL.max_tap_distance_m
     exclude: tuple = ()
-    method: str = "rbf"
+    method: str = "posterior"
     method_settings: dict = field(default_factory=dict)
     speeds_mps: tuple | None = None
     speed_unit: str = "km/h"
@@ -486,9 +488,9 @@ def _air(cx, d, where) -> Air:
 
 def _field(cx, d):
     _check_keys(cx, d, FIELD_KEYS, "field")
-    from .fields import METHODS
+    from .fields import DEFAULT_METHOD, METHODS
 
-    method = _string(cx, d, "method", "field", default="rbf")
+    method = _string(cx, d, "method", "field", default=DEFAULT_METHOD)
     if method not in METHODS:
         raise cx.err("field.method", f"{method!r} is not one of: {', '.join(METHODS)}")
     settings = {}
@@ -505,8 +507,8 @@ def _field(cx, d):
 def _bands(cx, d) -> BandSettings:
     where = "uncertainty"
     _check_keys(cx, d, UNCERTAINTY_KEYS, where)
-    enabled = d.get("bands", False)
-    if not isinstance(enabled, bool):
+    enabled = d.get("bands")
+    if enabled is not None and not isinstance(enabled, bool):
         raise cx.err(f"{where}.bands", f"{enabled!r} must be true or false")
     patches = d.get("patches", 2500)
     if isinstance(patches, bool) or not isinstance(patches, int) or patches < 50:

@@ -465,8 +465,7 @@ def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | Non
     -------
     UncertaintyResult
     """
-    from .gptrend import stagnation_params
-    from .kriging import SurfaceGP
+    from .fields.posterior import fit_surface_gp
     from .patches import Carrier
 
     n = len(taps)
@@ -484,13 +483,10 @@ def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | Non
     else:
         if carrier is None:
             carrier = Carrier(body, n_patches, progress=progress)
-        groups, B = carrier.regions(regions)
-        T = carrier.points_matrix(taps.points)
-        gp = SurfaceGP.on_carrier(carrier, kernel=kernel, trend=trend, length_scale=length_scale, groups=groups,
-                                  orientation=orientation, orientation_kernel=orientation_kernel,
-                                  normal_anisotropy=None if anisotropy else 1.0,
-                                  **stagnation_params(trend, taps.kind, q, stagnation_prior))
-        gp.fit(T, taps.values, meas.tap_u**2)
+        gp, groups, B = fit_surface_gp(carrier, taps, meas.tap_u**2, kernel=kernel, trend=trend,
+                                       length_scale=length_scale, regions=regions, orientation=orientation,
+                                       orientation_kernel=orientation_kernel, anisotropy=anisotropy, q=q,
+                                       stagnation=stagnation_prior)
     a = carrier.fine_weights(G, B)
     mean, var, Wk = gp.figures(a)
     closure = G.sum(axis=0)

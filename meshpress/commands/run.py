@@ -18,7 +18,9 @@ def add_parser(sub):
     p.add_argument("--bands", action="store_true",
                    help="give every configuration's figures and every comparison's change with a standard "
                         "uncertainty and a 95 %% interval (kriging along the surface, per-tap standard errors; "
-                        "adds some seconds; same as [uncertainty] bands = true)")
+                        "on by default with the default field method; same as [uncertainty] bands = true)")
+    p.add_argument("--no-bands", action="store_true",
+                   help="skip the bands (faster; same as [uncertainty] bands = false)")
     p.add_argument("--quiet", action="store_true", help="no progress display")
     p.set_defaults(run=run)
     return p
@@ -105,8 +107,16 @@ def format_test(result) -> str:
     for d in result.comparisons:
         dd = d["delta"]
         fs = "n/a" if dd["front_share"] is None else f"{100 * dd['front_share']:+.1f} points"
-        out.append(f"\n  {d['other']} vs {d['base']}: dCL {_c(dd['CL'], 0)}  dCD {_c(dd['CD'], 0)}  "
-                   f"dCLF {_c(dd['CLF'], 0)}  dCLR {_c(dd['CLR'], 0)}  front share {fs}")
+        if "change" in d:
+            # One answer per figure: with bands the change is its band's centre (the model of the tap-by-tap
+            # difference, in which what both configurations miss cancels), given with its u.
+            ch = d["change"]["figures"]
+            out.append(f"\n  {d['other']} vs {d['base']}: "
+                       + "  ".join(f"d{k} {ch[k]['value']:+.3f} +/- {ch[k]['u']:.3f}" for k in ("CL", "CD", "CLF", "CLR")
+                                   if k in ch))
+        else:
+            out.append(f"\n  {d['other']} vs {d['base']}: dCL {_c(dd['CL'], 0)}  dCD {_c(dd['CD'], 0)}  "
+                       f"dCLF {_c(dd['CLF'], 0)}  dCLR {_c(dd['CLR'], 0)}  front share {fs}")
         big = sorted(d["taps"], key=lambda t: -abs(t["delta_cp"]))[:3]
         out.append("    largest tap changes: " + ", ".join(f"{t['name']} {t['delta_cp']:+.3f}" for t in big))
     if result.bands_seconds is not None:
@@ -147,6 +157,7 @@ def _pm(b, width=18):
 
 def format_bands_summary(result) -> list:
     """Lines: each configuration's and each change's CL, CD, CLF, CLR as estimate +/- u, and the change sentences."""
+    from ..fields import DEFAULT_METHOD
     from ..uncertainty import field_outside
 
     figs = ("CL", "CD", "CLF", "CLR")
@@ -180,9 +191,13 @@ def format_bands_summary(result) -> list:
         if wide:
             out.append(f"    (the change's band is not much narrower than the configuration's own for {', '.join(wide)})")
     st = result.sheet.bands
-    out += [f"  (estimates are the kriging model's, the figures above the {result.sheet.method} field's: their "
-            "difference is one sign of the method spread;",
-            f"  systematic errors correlated {st.error_correlation:g} between configurations; {st.patches} patches, "
+    if result.sheet.method == DEFAULT_METHOD:
+        out += ["  (each configuration's figures are its band's centre; a change is the model of the tap-by-tap "
+                "difference, so it need not equal the difference of the configurations' figures;"]
+    else:
+        out += [f"  (estimates are the kriging model's, the figures above the {result.sheet.method} field's: their "
+                "difference is one sign of the method spread;"]
+    out += [f"  systematic errors correlated {st.error_correlation:g} between configurations; {st.patches} patches, "
             f"{result.bands_seconds:.1f} s; a band covers 95 % under the model's assumptions and cannot see a "
             "feature no tap comes near)"]
     return out
@@ -199,7 +214,7 @@ def run(args) -> int:
     inputs = sheet.input_files()
     check_output_dir(out, inputs)  # before the work, so a bad --out fails fast
     progress = Progress(enabled=False if args.quiet else None)
-    result = process_sheet(sheet, progress, bands=True if args.bands else None)
+    result = process_sheet(sheet, progress, bands=True if args.bands else (False if args.no_bands else None))
     print(format_test(result))
     files = result_files(result, plot=not args.no_plot)
     write_folder(out, files, inputs=inputs, manifest={"sheet": str(sheet.path)})

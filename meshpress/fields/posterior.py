@@ -49,13 +49,18 @@ class PosteriorField(Field):
         Reused when it belongs to the body being fitted.
     anisotropy : bool
         Fit a weight of the normals' streamwise part in the normals' factor.
+    like : PosteriorField, optional
+        A fitted field of the same body and tap positions whose model
+        (kernel, hyperparameters, noise) is kept: only the readings change, so
+        the face values are the same linear map of the readings (used for the
+        runs of one configuration).
     """
 
     name = "posterior"
 
     def __init__(self, kernel="auto", patches=2500, trend="newtonian", orientation=True,
                  orientation_kernel="matern52", stagnation=True, q=None, tap_var=None, regions=None, carrier=None,
-                 anisotropy=False):
+                 anisotropy=False, like=None):
         self.kernel = kernel
         self.patches = patches
         self.trend = trend
@@ -67,26 +72,28 @@ class PosteriorField(Field):
         self.regions = regions
         self.carrier = carrier
         self.anisotropy = anisotropy
+        self.like = like
 
     def _fit(self, body, taps, progress):
         from ..errors import InputError
-        from ..gptrend import stagnation_params
-        from ..kriging import SurfaceGP
         from ..patches import Carrier
 
         if len(taps) < 3:
             raise InputError(f"the {self.name} method needs at least 3 taps, got {len(taps)}")
+        like = self.like
+        if like is not None and like.body_ is body and np.array_equal(like.taps_.points, taps.points):
+            self.carrier_, self.groups_, self.face_matrix_ = like.carrier_, like.groups_, like.face_matrix_
+            self.gp_, self.tap_var_ = like.gp_.conditioned_on(taps.values), like.tap_var_
+            self.node_values_ = self.gp_.node_mean()
+            return
         carrier = self.carrier
         if carrier is None or carrier.body is not body:
             carrier = Carrier(body, self.patches, progress=progress)
-        groups, B = carrier.regions(self.regions)
-        T = carrier.points_matrix(taps.points)
-        gp = SurfaceGP.on_carrier(carrier, kernel=self.kernel, trend=self.trend, groups=groups,
-                                  orientation=self.orientation, orientation_kernel=self.orientation_kernel,
-                                  normal_anisotropy=None if self.anisotropy else 1.0,
-                                  **stagnation_params(self.trend, taps.kind, self.q, self.stagnation))
         tv = None if self.tap_var is None else np.asarray(self.tap_var, float).reshape(len(taps))
-        gp.fit(T, taps.values, tv)
+        gp, groups, B = fit_surface_gp(carrier, taps, tv, kernel=self.kernel, trend=self.trend,
+                                       regions=self.regions, orientation=self.orientation,
+                                       orientation_kernel=self.orientation_kernel, anisotropy=self.anisotropy,
+                                       q=self.q, stagnation=self.stagnation)
         self.carrier_, self.groups_, self.face_matrix_, self.gp_ = carrier, groups, B, gp
         self.tap_var_ = np.zeros(len(taps)) if tv is None else tv
         self.node_values_ = gp.node_mean()
@@ -102,3 +109,45 @@ class PosteriorField(Field):
 
     def describe(self) -> str:
         return getattr(self, "gp_", None) and f"posterior of {self.gp_.describe()}" or "posterior (surface GP)"
+
+
+def fit_surface_gp(carrier, taps, tap_var=None, *, kernel="auto", trend="newtonian", length_scale=None,
+                   regions=None, orientation=True, orientation_kernel="matern52", anisotropy=False, q=None,
+                   stagnation=True):
+    """Fit the bands' surface Gaussian process to the taps on a carrier.
+
+    The one place where the model of the default field and of
+    :func:`meshpress.uncertainty.compute_uncertainty` is put together, so the
+    two cannot drift apart.
+
+    Parameters
+    ----------
+    carrier : Carrier
+    taps : ProjectedTaps
+        ``n`` taps with values (Cp or Pa).
+    tap_var : (n,) float, optional
+        Known variance of each reading (taps' unit squared); None: none stated.
+    kernel, trend, length_scale, orientation, orientation_kernel, anisotropy, q, stagnation
+        As :class:`PosteriorField` (``length_scale`` fixed when given).
+    regions : str or (m,) array, optional
+
+    Returns
+    -------
+    gp : SurfaceGP
+        Fitted.
+    groups : (k,) int array
+        Region of each carrier node.
+    B : (m, k) sparse matrix
+        Carrier node values to face values.
+    """
+    from ..gptrend import stagnation_params
+    from ..kriging import SurfaceGP
+
+    groups, B = carrier.regions(regions)
+    T = carrier.points_matrix(taps.points)
+    gp = SurfaceGP.on_carrier(carrier, kernel=kernel, trend=trend, length_scale=length_scale, groups=groups,
+                              orientation=orientation, orientation_kernel=orientation_kernel,
+                              normal_anisotropy=None if anisotropy else 1.0,
+                              **stagnation_params(trend, taps.kind, q, stagnation))
+    gp.fit(T, taps.values, tap_var)
+    return gp, groups, B
