@@ -1,6 +1,6 @@
 """Accuracy of every field method against known truth (docs/accuracy.md).
 
-Cases (meshpress.exact, meshpress.samples):
+Cases (meshpress.bodies.exact, meshpress.bodies.samples):
 - hemisphere on the ground in potential flow (CL = 11/16 on the base area);
 - half ellipsoid 3 : 1.2 : 1 on the ground, flow along its long axis (Lamb's closed form);
 - thin Joukowski wing (chord 0.3 m, 11.8 % thick, 4 deg), extruded 0.8 m and closed by flat caps;
@@ -25,12 +25,12 @@ import numpy as np
 import trimesh
 from trimesh.triangles import points_to_barycentric
 
-from meshpress import exact, samples
-from meshpress.analysis import compute_loads
-from meshpress.body import Axles, Body
-from meshpress.compare import compare_methods
+from meshpress.bodies import exact, samples
+from meshpress.loads.analysis import compute_loads
+from meshpress.bodies.body import Axles, Body
+from meshpress.loads.compare import compare_methods
 from meshpress.fields import Field, make_field
-from meshpress.projection import ProjectedTaps, nearest_on_faces
+from meshpress.taps.projection import ProjectedTaps, nearest_on_faces
 
 ROOT = Path(__file__).resolve().parent.parent
 METHODS = ["rbf", "geodesic", "biharmonic", "harmonic", "nearest", "strip", "kriging"]

@@ -1,12 +1,12 @@
 """What the biharmonic (and harmonic) field's mesh dependence is made of, and what bounded edges do to it.
 
 1. sphere: the unit sphere, where the continuum biharmonic minimiser through point values is known in
-   closed form (Wahba's spline, meshpress.exact.sphere_spline).  The same 100 taps (Fibonacci points) on
+   closed form (Wahba's spline, meshpress.bodies.exact.sphere_spline).  The same 100 taps (Fibonacci points) on
    icosphere levels 3-6 (uniform), on lofted spheres (stations along x, poles with fans, aspect up to 4)
    and on quadric-decimated copies of level 7, each solved as given: RMS error of the vertex values against the spline and the
    error of the integral -int u n_z dA against the spline's own (Funk-Hecke: -sum c_i y_iz / 4).  The
    harmonic field on the same taps and meshes, against the exact integral of the sampled field.
-2. car: the sample car body (meshpress.samples.car_body, default spacing: strips of long thin triangles
+2. car: the sample car body (meshpress.bodies.samples.car_body, default spacing: strips of long thin triangles
    on the centre lines, sliver fans at the ends), the same 200 tap points with the same values on every
    mesh; biharmonic solved on the mesh as given ("before", max_edge_ratio=None) and on the copy with
    edges at most 2 mean edges ("after", the default): CL, CLF, CLR (on 2 m2) for several n_around at 400
@@ -27,13 +27,13 @@ from pathlib import Path
 import numpy as np
 from trimesh.triangles import points_to_barycentric
 
-from meshpress import samples
-from meshpress.analysis import compute_loads
-from meshpress.body import Axles, Body
-from meshpress.exact import sphere_cp, sphere_spline, sphere_spline_kernel
+from meshpress.bodies import samples
+from meshpress.loads.analysis import compute_loads
+from meshpress.bodies.body import Axles, Body
+from meshpress.bodies.exact import sphere_cp, sphere_spline, sphere_spline_kernel
 from meshpress.fields import make_field
-from meshpress.projection import ProjectedTaps, nearest_on_faces
-from meshpress.workmesh import simplify
+from meshpress.taps.projection import ProjectedTaps, nearest_on_faces
+from meshpress.bodies.workmesh import simplify
 
 MID = 0.5 * sum(samples.WHEELBASE_X)
 

@@ -13,7 +13,7 @@ jittered) layouts, both runs read the exact Cp plus a per-tap sensor error
 (rectangular, standard uncertainty U_SENSOR, the same draw in both runs:
 correlation 1) and independent noise of standard deviation U_RANDOM (the
 standard error of each run's mean); the change's band
-(:func:`meshpress.change.compute_change`) is scored against the exact change
+(:func:`meshpress.bands.change.compute_change`) is scored against the exact change
 integrated over the same faces.  Reported per change and figure: coverage,
 RMS error, RMS u, mean 95 % half-width over the RMS error, the median ratio
 of the change's u to the smaller of the two runs' own u, and how often the
@@ -43,11 +43,11 @@ import bench_uncertainty as bu  # noqa: E402
 import truth_cases as tc  # noqa: E402
 from make_example import wing_delta_cp  # noqa: E402
 
-from meshpress import samples  # noqa: E402
-from meshpress.change import ErrorSources, compute_change  # noqa: E402
+from meshpress.bodies import samples  # noqa: E402
+from meshpress.bands.change import ErrorSources, compute_change  # noqa: E402
 from meshpress.fields import make_field  # noqa: E402
-from meshpress.patches import Carrier  # noqa: E402
-from meshpress.uncertainty import K95, figure_face_weights  # noqa: E402
+from meshpress.bands.patches import Carrier  # noqa: E402
+from meshpress.bands.uncertainty import K95, figure_face_weights  # noqa: E402
 
 U_SENSOR = 0.005  # Cp, systematic per tap, same in both runs
 U_RANDOM = 0.003  # Cp, independent between runs
@@ -141,8 +141,8 @@ def summarise(rows, key="err"):
 
 
 def timing(repeats=3):
-    from meshpress.runs import process_sheet
-    from meshpress.sheet import read_sheet
+    from meshpress.sheets.runs import process_sheet
+    from meshpress.sheets.sheet import read_sheet
 
     sheet = read_sheet(HERE.parent / "examples" / "sports_car_wing" / "test.toml")
     out = {}

@@ -22,9 +22,9 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 
 from bench_accuracy import cases, layout, practical_car_taps, taps_at, truth_loads  # noqa: E402
 
-from meshpress.analysis import compute_loads  # noqa: E402
+from meshpress.loads.analysis import compute_loads  # noqa: E402
 from meshpress.fields import make_field  # noqa: E402
-from meshpress.uncertainty import compute_uncertainty  # noqa: E402
+from meshpress.bands.uncertainty import compute_uncertainty  # noqa: E402
 
 METHODS = ["posterior", "kriging", "rbf", "strip"]
 PLANS = {"hemisphere": [("spread", 100), ("spread", 200)], "half ellipsoid": [("spread", 100), ("spread", 200)],

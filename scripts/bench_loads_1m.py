@@ -27,7 +27,7 @@ sys.path.insert(0, str(ROOT))
 def make_case(workdir: Path, stations: int, around: int, n_taps: int = 200, seed: int = 11):
     import trimesh
 
-    from meshpress import samples
+    from meshpress.bodies import samples
 
     mesh_path, taps_path = workdir / f"car_{stations}x{around}.stl", workdir / f"taps_{n_taps}.csv"
     if mesh_path.exists() and taps_path.exists():

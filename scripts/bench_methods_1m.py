@@ -1,6 +1,6 @@
 """Speed and memory of every field method on a 1-million-face body, and the working copy's effect on loads.
 
-1. The car-like body of meshpress.samples at about 1,000,000 faces (1250 sections x 400 points, near-isotropic triangles), 200 taps (area-random) carrying the
+1. The car-like body of meshpress.bodies.samples at about 1,000,000 faces (1250 sections x 400 points, near-isotropic triangles), 200 taps (area-random) carrying the
    invented Cp field.  Each method runs end to end (Body from arrays, fit, face values, integration) in a
    fresh process; wall time and peak resident memory (ru_maxrss) are printed.
 2. Working copy: on the same body, the *exact* field sampled at the working copy's vertices and carried
@@ -23,7 +23,7 @@ from pathlib import Path
 
 import numpy as np
 
-from meshpress import samples
+from meshpress.bodies import samples
 
 TMP = Path("/tmp/meshpress_bench_1m.npz")
 METHODS = ["rbf", "geodesic", "biharmonic", "harmonic", "nearest", "strip", "kriging"]
@@ -41,7 +41,7 @@ def make_body_arrays(n_stations, n_around):
 
 
 def body_from(v, f):
-    from meshpress.body import Axles, Body
+    from meshpress.bodies.body import Axles, Body
 
     return Body(v, f, axles=Axles(samples.WHEELBASE_X[0] - MID, samples.WHEELBASE_X[1] - MID))
 
@@ -55,7 +55,7 @@ def taps_for(body, n, seed=3):
 
 
 def child(method):
-    from meshpress.analysis import compute_loads
+    from meshpress.loads.analysis import compute_loads
     from meshpress.fields import make_field
 
     d = np.load(TMP)
@@ -75,7 +75,7 @@ def child(method):
 
 
 def loads_of(body, values, ref):
-    from meshpress.integrate import force_and_moment
+    from meshpress.loads.integrate import force_and_moment
 
     F, M = force_and_moment(body.area_vectors, body.centroids, values, np.zeros(3), 0.0)
     wb = body.axles.wheelbase
@@ -84,7 +84,7 @@ def loads_of(body, values, ref):
 
 
 def main(methods=METHODS, copies=True):
-    from meshpress.workmesh import WorkMesh
+    from meshpress.bodies.workmesh import WorkMesh
 
     v, f = make_body_arrays(1250, 400)
     body = body_from(v, f)
@@ -134,7 +134,7 @@ def main(methods=METHODS, copies=True):
               f"{100 * (lw[0] - lf[0]) / abs(lf[0]):+.2f} | {np.abs(lw - lf).max():.4f} | "
               f"({time.perf_counter() - t0:.1f} s)", flush=True)
 
-    from meshpress.analysis import compute_loads
+    from meshpress.loads.analysis import compute_loads
     from meshpress.fields import make_field
 
     v2, f2 = make_body_arrays(500, 160)
@@ -158,7 +158,7 @@ def resolution():
     """Is a change through the working copy larger than the method's own mesh dependence?  The same 200
     tap points on the car-like body at three resolutions, each method solved on the full mesh and on an
     80,000-face copy (``--resolution``)."""
-    from meshpress.analysis import compute_loads
+    from meshpress.loads.analysis import compute_loads
     from meshpress.fields import make_field
 
     bodies = {k: body_from(*make_body_arrays(*k)) for k in [(400, 100), (500, 160), (700, 230)]}

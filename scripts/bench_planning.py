@@ -29,9 +29,9 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 import truth_cases as tc  # noqa: E402
 
 from meshpress.fields import make_field  # noqa: E402
-from meshpress.patches import Carrier  # noqa: E402
-from meshpress.planning import plan_taps  # noqa: E402
-from meshpress.uncertainty import compute_uncertainty, figure_face_weights  # noqa: E402
+from meshpress.bands.patches import Carrier  # noqa: E402
+from meshpress.bands.planning import plan_taps  # noqa: E402
+from meshpress.bands.uncertainty import compute_uncertainty, figure_face_weights  # noqa: E402
 
 FIGS = ("CL", "CLF", "CLR")
 #: The estimate's orientation form: compute_uncertainty's default (recorded in the output's name and content).

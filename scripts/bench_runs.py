@@ -25,14 +25,14 @@ sys.path.insert(0, str(ROOT / "scripts"))
 
 from make_example import X_NOSE, WIND, V_KMH, wing_delta_cp  # noqa: E402
 
-from meshpress import samples  # noqa: E402
-from meshpress.analysis import compute_loads  # noqa: E402
-from meshpress.body import load_body  # noqa: E402
+from meshpress.bodies import samples  # noqa: E402
+from meshpress.loads.analysis import compute_loads  # noqa: E402
+from meshpress.bodies.body import load_body  # noqa: E402
 from meshpress.fields import make_field  # noqa: E402
-from meshpress.integrate import force_and_moment  # noqa: E402
-from meshpress.projection import project_taps  # noqa: E402
-from meshpress.runs import _read_run, process_sheet, read_layout, reduce_run  # noqa: E402
-from meshpress.sheet import read_sheet  # noqa: E402
+from meshpress.loads.integrate import force_and_moment  # noqa: E402
+from meshpress.taps.projection import project_taps  # noqa: E402
+from meshpress.sheets.runs import _read_run, process_sheet, read_layout, reduce_run  # noqa: E402
+from meshpress.sheets.sheet import read_sheet  # noqa: E402
 
 SHEET = ROOT / "examples" / "sports_car_wing" / "test.toml"
 

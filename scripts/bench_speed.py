@@ -25,9 +25,9 @@ import numpy as np
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 import truth_cases as tc  # noqa: E402
 
-from meshpress.gptrend import STAGNATION_SETTINGS  # noqa: E402
-from meshpress.planning import plan_taps  # noqa: E402
-from meshpress.uncertainty import compute_uncertainty  # noqa: E402
+from meshpress.bands.gptrend import STAGNATION_SETTINGS  # noqa: E402
+from meshpress.bands.planning import plan_taps  # noqa: E402
+from meshpress.bands.uncertainty import compute_uncertainty  # noqa: E402
 
 
 def main():

@@ -39,9 +39,9 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 import truth_cases as tc  # noqa: E402
 
 from meshpress.fields import make_field  # noqa: E402
-from meshpress.gptrend import STAGNATION_SETTINGS  # noqa: E402
-from meshpress.patches import Carrier  # noqa: E402
-from meshpress.uncertainty import K95, Measurement, compute_uncertainty, figure_face_weights  # noqa: E402
+from meshpress.bands.gptrend import STAGNATION_SETTINGS  # noqa: E402
+from meshpress.bands.patches import Carrier  # noqa: E402
+from meshpress.bands.uncertainty import K95, Measurement, compute_uncertainty, figure_face_weights  # noqa: E402
 
 U_TAP = 0.005  # Cp: about 2.4 Pa at 100 km/h
 FIGS = ("CL", "CD", "CLF", "CLR")

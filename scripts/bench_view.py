@@ -15,7 +15,7 @@ import numpy as np
 
 
 def _run_for(body, values, taps, label, **kw):
-    from meshpress.view3d import render_views
+    from meshpress.outputs.view3d import render_views
 
     t = time.perf_counter()
     imgs = render_views(body, values, taps, kind="cp", q=472.6, **kw)
@@ -29,9 +29,9 @@ def main():
     ap = argparse.ArgumentParser()
     ap.add_argument("--faces-big", type=int, default=1_000_000)
     a = ap.parse_args()
-    from meshpress.body import Body
-    from meshpress.projection import ProjectedTaps
-    from meshpress.samples import car_body, car_cp
+    from meshpress.bodies.body import Body
+    from meshpress.taps.projection import ProjectedTaps
+    from meshpress.bodies.samples import car_body, car_cp
 
     rng = np.random.default_rng(1)
     for n_st, n_ar, label in ((200, 100, "sample-size body (40k faces)"),

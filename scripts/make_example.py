@@ -4,7 +4,7 @@ Scenario (made up, not measured): a small sports car (the sample body of
 sample_meshes/coupe.stl) on an invented closed airfield runway, 120 km/h GPS
 speed, two directions, with a steady 3.5 m/s wind along the runway.  Two
 configurations: ``baseline`` and ``rear-wing``; the wing is modelled as a
-change of the invented Cp field of meshpress.samples on the rear deck (higher
+change of the invented Cp field of meshpress.bodies.samples on the rear deck (higher
 pressure on the deck ahead of and under the wing, a lower base
 pressure).  Each run is a 10 Hz log of 57 taps read against the cabin, an
 on-board pitot-static q, the cabin pressure against the pitot static and the
@@ -21,11 +21,11 @@ from pathlib import Path
 
 import numpy as np
 
-from meshpress import samples
-from meshpress.body import load_body
+from meshpress.bodies import samples
+from meshpress.bodies.body import load_body
 from meshpress.commands.demo import DEMO_SETTINGS
-from meshpress.projection import project_taps
-from meshpress.taps import read_taps
+from meshpress.taps.projection import project_taps
+from meshpress.taps.layout import read_taps
 
 ROOT = Path(__file__).resolve().parent.parent
 OUT = ROOT / "examples" / "sports_car_wing"
@@ -80,7 +80,7 @@ def write_csv(path, header_lines, names, data):
 
 
 def main(seed: int = 11):
-    from meshpress.air import air_density
+    from meshpress.sheets.air import air_density
 
     rng = np.random.default_rng(seed)
     rho, _ = air_density(AIR["temperature_C"], AIR["pressure_hPa"] * 100, AIR["humidity_percent"])

@@ -2,7 +2,7 @@
 
 Creates in sample_meshes/:
 
-- ``coupe.stl``: the closed car-like body of meshpress.samples, in mm, y up,
+- ``coupe.stl``: the closed car-like body of meshpress.bodies.samples, in mm, y up,
   forward -z, with the origin somewhere a scanner might leave it.
 - ``coupe_scan.stl``: a scan-like copy: open underbody, a few holes, 0.5 mm
   noise, 3 % of faces flipped, triangle soup.
@@ -20,7 +20,7 @@ from pathlib import Path
 import numpy as np
 import trimesh
 
-from meshpress import samples
+from meshpress.bodies import samples
 
 OUT = Path(__file__).resolve().parent.parent / "sample_meshes"
 OFFSET_MM = np.array([-20.0, 312.0, -1100.0])  # where the "scanner" put its origin

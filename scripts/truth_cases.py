@@ -14,7 +14,7 @@
   chord).
 - ``wing_high``: the same wing 1 m above the ground (a diagnostic: the
   moments' arms change, the field and the lift do not).
-- ``car``: meshpress.samples.car_body with the invented car_cp field (INVENTED
+- ``car``: meshpress.bodies.samples.car_body with the invented car_cp field (INVENTED
   known truth), practical layout from scripts/make_samples.py tap_layout.
 
 Truth figures are the integral of the exact Cp over the same mesh faces, so
@@ -30,8 +30,8 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 
-from meshpress.body import Axles, Body  # noqa: E402
-from meshpress.projection import ProjectedTaps  # noqa: E402
+from meshpress.bodies.body import Axles, Body  # noqa: E402
+from meshpress.taps.projection import ProjectedTaps  # noqa: E402
 
 
 def hemisphere(sub: int = 5):
@@ -120,7 +120,7 @@ def wing_cp(points, height: float = WING_HEIGHT["wing"]):
 
 
 def car(n_stations=200, n_around=100):
-    from meshpress import samples
+    from meshpress.bodies import samples
 
     v, f = samples.car_body(n_stations, n_around)
     x0 = 0.5 * (samples.WHEELBASE_X[0] + samples.WHEELBASE_X[1])
@@ -139,7 +139,7 @@ def truth_face_values(body, cp):
 
 def make_taps(body, cp, points, names=None):
     """ProjectedTaps at the nearest surface points, exact Cp values (no noise)."""
-    from meshpress.projection import nearest_on_faces
+    from meshpress.taps.projection import nearest_on_faces
     from trimesh.triangles import points_to_barycentric
 
     pts, fid, dist = nearest_on_faces(body, points)
@@ -163,7 +163,7 @@ def random_surface_points(body, n, rng, allowed=None):
 def car_practical_points(body, jitter=0.0, rng=None):
     """The 57-tap practical layout of scripts/make_samples.py on this body (x shifted to the axle frame)."""
     from make_samples import tap_layout
-    from meshpress import samples
+    from meshpress.bodies import samples
 
     x0 = 0.5 * (samples.WHEELBASE_X[0] + samples.WHEELBASE_X[1])
     e = 2.0 / 3.2  # the sample body's superellipse exponent

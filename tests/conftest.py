@@ -85,7 +85,7 @@ def small_car(tmp_path_factory):
     """The sample car-like body at low resolution, in the vehicle frame (m, z up, forward -x, nose at x=0)."""
     import meshio
 
-    from meshpress import samples
+    from meshpress.bodies import samples
 
     v, f = samples.car_body(60, 40)
     path = tmp_path_factory.mktemp("car") / "car.vtu"  # doubles, unlike STL

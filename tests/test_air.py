@@ -5,8 +5,8 @@ import math
 import numpy as np
 import pytest
 
-from meshpress.air import air_density, moist_air_density, saturation_vapour_pressure
-from meshpress.coefficients import dynamic_pressure
+from meshpress.sheets.air import air_density, moist_air_density, saturation_vapour_pressure
+from meshpress.loads.coefficients import dynamic_pressure
 from meshpress.errors import InputError
 from meshpress.units import speed_factor
 

@@ -1,4 +1,4 @@
-"""Bands on the change between two configurations on shared taps (meshpress.change, uncertainty --baseline)."""
+"""Bands on the change between two configurations on shared taps (meshpress.bands.change, uncertainty --baseline)."""
 
 from __future__ import annotations
 
@@ -7,11 +7,11 @@ import json
 import numpy as np
 import pytest
 
-from meshpress.body import Axles, Body
-from meshpress.change import ErrorSources, compute_change, match_taps, tap_covariances
+from meshpress.bodies.body import Axles, Body
+from meshpress.bands.change import ErrorSources, compute_change, match_taps, tap_covariances
 from meshpress.errors import InputError
-from meshpress.kriging import SurfaceGP
-from meshpress.uncertainty import K95, figure_face_weights
+from meshpress.bands.kriging import SurfaceGP
+from meshpress.bands.uncertainty import K95, figure_face_weights
 
 from conftest import icosphere, write_taps
 from test_uncertainty import fib_points, make_taps, sphere_cp

@@ -8,11 +8,11 @@ import pytest
 from conftest import fibonacci_hemisphere, run_cli
 from test_fields_contract import make_taps
 
-from meshpress.analysis import compute_loads
-from meshpress.body import Axles, Body
-from meshpress.exact import HEMISPHERE_CL, Joukowski, sphere_cp, uv_hemisphere
+from meshpress.loads.analysis import compute_loads
+from meshpress.bodies.body import Axles, Body
+from meshpress.bodies.exact import HEMISPHERE_CL, Joukowski, sphere_cp, uv_hemisphere
 from meshpress.fields import DEFAULT_METHOD, PosteriorField, make_field
-from meshpress.uncertainty import Measurement, compute_uncertainty
+from meshpress.bands.uncertainty import Measurement, compute_uncertainty
 
 SAMPLE = ["--length-unit", "mm", "--up", "+y", "--forward=-z", "--front-axle", "-250", "--rear-axle", "2350"]
 COEFS = ("CL", "CD", "CS", "CPM", "CLF", "CLR")
@@ -104,7 +104,7 @@ def test_cli_one_answer_text_and_json_agree(tmp_path, samples_dir):
 
 def test_compare_says_when_the_default_is_not_its_recommendation():
     # The ranking rule (lowest nested leave-one-out RMS) on two made-up rows: text only, no fit.
-    from meshpress.compare import recommend, summary
+    from meshpress.loads.compare import recommend, summary
 
     rows = [dict(method="posterior", loo_rms=0.20, loo_nested_rms=0.21, loo_unit="Cp", CL=0.30, CLF=0.1, CLR=0.2),
             dict(method="rbf", loo_rms=0.10, loo_nested_rms=0.11, loo_unit="Cp", CL=0.40, CLF=0.1, CLR=0.3)]

@@ -3,8 +3,8 @@
 import numpy as np
 import pytest
 
-from meshpress.body import Body
-from meshpress.exact import (HEMISPHERE_CL, Joukowski, ellipsoid_alpha0, ellipsoid_cp, sphere_cp,
+from meshpress.bodies.body import Body
+from meshpress.bodies.exact import (HEMISPHERE_CL, Joukowski, ellipsoid_alpha0, ellipsoid_cp, sphere_cp,
                              uv_hemisphere)
 
 

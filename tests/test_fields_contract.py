@@ -9,12 +9,12 @@ import pytest
 from trimesh.triangles import points_to_barycentric
 
 from conftest import icosphere
-from meshpress.analysis import compute_loads
-from meshpress.body import Body
+from meshpress.loads.analysis import compute_loads
+from meshpress.bodies.body import Body
 from meshpress.errors import InputError
-from meshpress.exact import HEMISPHERE_CL, sphere_cp, uv_hemisphere
+from meshpress.bodies.exact import HEMISPHERE_CL, sphere_cp, uv_hemisphere
 from meshpress.fields import METHODS, Field, make_field
-from meshpress.projection import ProjectedTaps, nearest_on_faces
+from meshpress.taps.projection import ProjectedTaps, nearest_on_faces
 
 ALL = list(METHODS)
 SURFACE = ["geodesic", "biharmonic", "harmonic", "nearest"]
@@ -263,7 +263,7 @@ def test_compare_json_carries_every_method(cli, tmp_path):
 
 def test_region_specs(tmp_path):
     # A box has six flat sides meeting at 90 degree edges: six sharp-edge patches (geometry).
-    from meshpress.regions import face_regions
+    from meshpress.bodies.regions import face_regions
 
     body = plates()
     names, idx = face_regions(body, "edges")
@@ -297,8 +297,8 @@ def test_region_without_taps_takes_empty_value():
 
 def test_sphere_spline_kernel_closed_form_matches_series():
     # Wahba (1981) defines the kernel by its Legendre series; the closed form with the dilogarithm is
-    # derived (meshpress.exact); 2000 terms leave a truncation error below 1/2000^2.
-    from meshpress.exact import sphere_spline_kernel, sphere_spline_kernel_series
+    # derived (meshpress.bodies.exact); 2000 terms leave a truncation error below 1/2000^2.
+    from meshpress.bodies.exact import sphere_spline_kernel, sphere_spline_kernel_series
 
     t = np.linspace(-1, 1, 41)
     np.testing.assert_allclose(sphere_spline_kernel(t), sphere_spline_kernel_series(t), atol=1e-6)
@@ -309,7 +309,7 @@ def test_biharmonic_converges_to_wahba_spline_on_sphere():
     # The continuum minimiser of int (Lap u)^2 through point values on the unit sphere is Wahba's spline
     # (Wahba, SIAM J. Sci. Stat. Comput. 2 (1981) 5-16); a second-order method on uniform meshes should cut
     # the error about 4x per halving of the edge (icosphere levels 3 -> 4).
-    from meshpress.exact import sphere_spline
+    from meshpress.bodies.exact import sphere_spline
 
     pts = fibonacci_sphere(60)
     vals = sphere_cp(pts) + 0.5 * pts[:, 2]
@@ -329,8 +329,8 @@ def test_refine_long_edges_is_conforming_and_keeps_the_surface():
     # polyhedron formula).  The sample car's default mesh has strips of long thin triangles.
     import trimesh
 
-    from meshpress.samples import car_body
-    from meshpress.workmesh import mean_edge, refine_long_edges
+    from meshpress.bodies.samples import car_body
+    from meshpress.bodies.workmesh import mean_edge, refine_long_edges
 
     v, f = car_body(40, 30)
     m0 = trimesh.Trimesh(v, f, process=False)
@@ -347,7 +347,7 @@ def test_compare_never_recommends_harmonic_for_loads():
     # The harmonic field from point data has no continuum limit (zero capacity of a point in 2-D; e.g.
     # Evans, Partial Differential Equations, 2010, on capacity [from memory]); the next test
     # checks the drift numerically.  Even with the lowest leave-one-out error it is not recommended.
-    from meshpress.compare import recommend, summary
+    from meshpress.loads.compare import recommend, summary
 
     rows = [{"method": "harmonic", "loo_rms": 0.01, "loo_unit": "Cp", "CL": 0.3},
             {"method": "biharmonic", "loo_rms": 0.02, "loo_unit": "Cp", "CL": 0.35}]
@@ -380,8 +380,8 @@ def test_even_car_body_has_no_long_edges():
     # mean edge (that of an equilateral triangle of the mean face area [geometry]); a closed surface.
     import trimesh
 
-    from meshpress.samples import car_body
-    from meshpress.workmesh import mean_edge
+    from meshpress.bodies.samples import car_body
+    from meshpress.bodies.workmesh import mean_edge
 
     v, f = car_body(60, 54, even=True)
     m = trimesh.Trimesh(v, f, process=False)
@@ -393,7 +393,7 @@ def test_newtonian_trend_features_follow_sine_squared_law(sphere):
     # Newton's sine-squared law (Anderson, Hypersonic and High-Temperature Gas Dynamics, 2nd ed. 2006, sec. 3.2):
     # Cp / Cp_max = sin^2(delta), delta the angle between the oncoming flow and the surface, i.e. cos^2 of the
     # angle between the inward normal and the flow; zero on the leeward side.  The flow runs along +x.
-    from meshpress.gptrend import trend_features
+    from meshpress.bands.gptrend import trend_features
 
     n = sphere.face_normals
     F = trend_features(n, "newtonian")
@@ -410,7 +410,7 @@ def test_newtonian_trend_fills_an_untapped_windward_cap(method, sphere):
     # a field in the span of the trend, Cp = -0.3 + 1.2 cos^2 (windward) - 0.25 |cos| (leeward), is recovered on
     # a windward cap with no tap in it, where a constant mean reverts towards the taps' average (no clamping to
     # the tap range here: the cap lies above every reading).
-    from meshpress.gptrend import trend_features
+    from meshpress.bands.gptrend import trend_features
 
     def cp(normals):
         F = trend_features(normals, "newtonian")

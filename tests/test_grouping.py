@@ -2,7 +2,7 @@
 
 import numpy as np
 
-from meshpress.grouping import group
+from meshpress.bodies.grouping import group
 
 
 def test_group_matches_numpy_unique():

@@ -5,9 +5,9 @@ import pytest
 import trimesh
 
 import meshpress
-from meshpress.body import Body
-from meshpress.coefficients import axle_split
-from meshpress.integrate import force_and_moment
+from meshpress.bodies.body import Body
+from meshpress.loads.coefficients import axle_split
+from meshpress.loads.integrate import force_and_moment
 
 from conftest import fibonacci_hemisphere, icosphere, sphere_cp, write_taps
 
@@ -51,7 +51,7 @@ def test_archimedes_sphere_exact_volume():
 def test_archimedes_sample_body_through_pipeline_with_axle_split(tmp_path, samples_dir):
     # Hydrostatic field sampled at the taps is linear, so the thin-plate spline with its linear
     # term reproduces it exactly (Duchon 1977); the whole pipeline must then give Archimedes.
-    from meshpress.taps import read_taps
+    from meshpress.taps.layout import read_taps
 
     kw = dict(length_unit="mm", up="+y", forward="-z", front_axle=-250.0, rear_axle=2350.0)
     body = meshpress.load_body(samples_dir / "coupe.stl", **kw)

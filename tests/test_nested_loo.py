@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from meshpress.body import Body
-from meshpress.compare import compare_methods, recommend
+from meshpress.bodies.body import Body
+from meshpress.loads.compare import compare_methods, recommend
 from meshpress.fields import Field, make_field
 from meshpress.fields.kernels import matern, nested_residuals, solve_with_loo, solve_with_nested
 
@@ -81,7 +81,7 @@ def test_geodesic_nested_loo_equals_refitting_with_the_trend_rechosen():
 
 
 def test_compare_ranks_by_the_nested_score():
-    # The rule of meshpress.compare: the lowest nested leave-one-out RMS wins (Cawley and Talbot 2010), the
+    # The rule of meshpress.loads.compare: the lowest nested leave-one-out RMS wins (Cawley and Talbot 2010), the
     # plain score only where a row has no nested one.
     rows = [{"method": "geodesic", "loo_rms": 0.10, "loo_nested_rms": 0.30, "loo_unit": "Cp"},
             {"method": "rbf", "loo_rms": 0.20, "loo_nested_rms": 0.20, "loo_unit": "Cp"}]
@@ -136,7 +136,7 @@ def test_point_chunks_give_the_one_block_answer():
 def test_kriging_kernel_chosen_by_loo_and_rechosen_without_each_tap():
     # kernel="loo": every candidate fitted by maximum likelihood, the one of lowest leave-one-out RMS kept; the
     # nested residual of tap i is that of the kernel the other taps' residuals pick (Cawley and Talbot 2010).
-    from meshpress.gpkernels import AUTO_KERNELS
+    from meshpress.bands.gpkernels import AUTO_KERNELS
 
     v, f = icosphere(3)
     sphere = Body(v, f)

@@ -5,12 +5,12 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from meshpress.body import Axles, Body
-from meshpress.gptrend import impact_prior
-from meshpress.kriging import SurfaceGP
-from meshpress.patches import Carrier
-from meshpress.planning import allowed_nodes, greedy_plan, plan_taps
-from meshpress.uncertainty import figure_face_weights
+from meshpress.bodies.body import Axles, Body
+from meshpress.bands.gptrend import impact_prior
+from meshpress.bands.kriging import SurfaceGP
+from meshpress.bands.patches import Carrier
+from meshpress.bands.planning import allowed_nodes, greedy_plan, plan_taps
+from meshpress.bands.uncertainty import figure_face_weights
 
 from conftest import icosphere
 from test_uncertainty import fib_points, make_taps

@@ -5,10 +5,10 @@ import pytest
 import trimesh
 
 import meshpress
-from meshpress.body import Body
-from meshpress.integrate import force_and_moment
-from meshpress.quadrature import cluster_faces, clustered_force_and_moment
-from meshpress.taps import read_taps
+from meshpress.bodies.body import Body
+from meshpress.loads.integrate import force_and_moment
+from meshpress.loads.quadrature import cluster_faces, clustered_force_and_moment
+from meshpress.taps.layout import read_taps
 
 
 def test_linear_field_on_flat_faces_force_is_exact():

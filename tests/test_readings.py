@@ -4,10 +4,10 @@ import numpy as np
 import pytest
 
 from meshpress.errors import InputError
-from meshpress.readings import (Series, longest_band, pressure_coefficients, read_series, steady_window,
+from meshpress.taps.readings import (Series, longest_band, pressure_coefficients, read_series, steady_window,
                                 tap_statistics)
-from meshpress.runs import reduce_run
-from meshpress.sheet import Reference, Run
+from meshpress.sheets.runs import reduce_run
+from meshpress.sheets.sheet import Reference, Run
 
 
 def test_statistics_hand_made():

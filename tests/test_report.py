@@ -20,7 +20,7 @@ def _write_case(tmp_path, mesh_name="car <i>v2 &.stl"):
     """A small car-like body (STL, m, z up, forward -x) and taps read off the invented field."""
     import trimesh
 
-    from meshpress.samples import car_body, car_cp
+    from meshpress.bodies.samples import car_body, car_cp
 
     v, f = car_body(n_stations=60, n_around=32)
     mesh = tmp_path / mesh_name
@@ -40,8 +40,8 @@ def _write_case(tmp_path, mesh_name="car <i>v2 &.stl"):
 
 @pytest.fixture(scope="module")
 def report_dir(tmp_path_factory):
-    from meshpress.analysis import run_loads_parts
-    from meshpress.report import write_report
+    from meshpress.loads.analysis import run_loads_parts
+    from meshpress.outputs.report import write_report
 
     tmp = tmp_path_factory.mktemp("report")
     mesh, taps = _write_case(tmp)
@@ -181,8 +181,8 @@ def test_loads_report_option(tmp_path, cli, samples_dir):
 
 def test_report_without_q_or_axles_and_with_awkward_names(tmp_path):
     # Pa readings, no q, no axles: the report falls back to Pa and says what it left out.
-    from meshpress.analysis import run_loads_parts
-    from meshpress.report import write_report
+    from meshpress.loads.analysis import run_loads_parts
+    from meshpress.outputs.report import write_report
 
     mesh, taps = _write_case(tmp_path, "plain.stl")
     text = taps.read_text().replace("tap,x,y,z,cp", "tap,x,y,z,p").replace('"a&b"', '"$x_1$ and $"')
@@ -197,9 +197,9 @@ def test_report_without_q_or_axles_and_with_awkward_names(tmp_path):
 
 
 def test_report_never_overwrites_an_input(tmp_path):
-    from meshpress.analysis import run_loads_parts
+    from meshpress.loads.analysis import run_loads_parts
     from meshpress.errors import InputError
-    from meshpress.report import write_report
+    from meshpress.outputs.report import write_report
 
     mesh, taps = _write_case(tmp_path, "m.stl")
     run = run_loads_parts(mesh, taps)

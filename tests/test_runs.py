@@ -7,9 +7,9 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from meshpress.air import air_density
-from meshpress.runs import WIND_BIAS_WARNING, process_sheet
-from meshpress.sheet import read_sheet
+from meshpress.sheets.air import air_density
+from meshpress.sheets.runs import WIND_BIAS_WARNING, process_sheet
+from meshpress.sheets.sheet import read_sheet
 
 from conftest import icosphere, run_cli
 
@@ -261,7 +261,7 @@ def test_sheet_mistakes_give_one_line_errors(tmp_path, capsys):
 
 @pytest.mark.slow
 def test_invented_example_end_to_end():
-    # The example's logs are made from the invented field of meshpress.samples (plus an invented wing change)
+    # The example's logs are made from the invented field of meshpress.bodies.samples (plus an invented wing change)
     # with noise, zero offsets, a cabin reference and an unsteady start; the known truth is that field.  The
     # change the wing makes is what a two-configuration test measures: it must come out within 0.03.
     import sys
@@ -402,7 +402,7 @@ def test_sheet_sensor_accuracy_is_common_to_a_configurations_runs(tmp_path):
     assert sheet.bands.sensor_u_Pa == pytest.approx(3.0 / np.sqrt(3)) and sheet.bands.enabled is None
     res = process_sheet(sheet, bands=False)
     assert res.changes == [] and res.configurations["plain"].bands is None
-    from meshpress.runs import configuration_errors
+    from meshpress.sheets.runs import configuration_errors
 
     e = configuration_errors(res.configurations["plain"].runs, sheet.bands.sensor_u_Pa)
     assert np.allclose(e.systematic_u, 3.0 / np.sqrt(3) / 600.0)

@@ -3,8 +3,8 @@
 import numpy as np
 import pytest
 
-from meshpress.sheet import G_N, StaticLoad
-from meshpress.speed import axle_loads, loads_at_speeds, speed_table, weight_share, wheel_loads
+from meshpress.sheets.sheet import G_N, StaticLoad
+from meshpress.sheets.speed import axle_loads, loads_at_speeds, speed_table, weight_share, wheel_loads
 
 
 def test_loads_scale_with_speed_squared():

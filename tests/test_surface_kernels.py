@@ -6,10 +6,10 @@ import numpy as np
 import pytest
 from scipy.special import eval_legendre
 
-from meshpress.body import Body
-from meshpress.gpkernels import SPECTRAL_KERNELS, spectral_density
-from meshpress.kriging import SurfaceGP
-from meshpress.patches import Carrier
+from meshpress.bodies.body import Body
+from meshpress.bands.gpkernels import SPECTRAL_KERNELS, spectral_density
+from meshpress.bands.kriging import SurfaceGP
+from meshpress.bands.patches import Carrier
 
 from conftest import icosphere
 
@@ -88,6 +88,6 @@ def test_auto_kernel_follows_the_field_smoothness(carrier):
 
 def test_cli_kernel_choices_match_the_model():
     from meshpress.commands.options import KRIGING_KERNELS
-    from meshpress.gpkernels import KERNELS
+    from meshpress.bands.gpkernels import KERNELS
 
     assert KRIGING_KERNELS == KERNELS

@@ -1,4 +1,4 @@
-"""User tables in the CSV dialects spreadsheets write (meshpress.tables)."""
+"""User tables in the CSV dialects spreadsheets write (meshpress.taps.tables)."""
 
 from __future__ import annotations
 
@@ -8,8 +8,8 @@ import numpy as np
 import pytest
 
 from meshpress.errors import InputError
-from meshpress.tables import read_table, separator
-from meshpress.taps import read_taps
+from meshpress.taps.tables import read_table, separator
+from meshpress.taps.layout import read_taps
 
 
 def _rows(path):

@@ -6,7 +6,7 @@ import pytest
 
 import meshpress
 from meshpress.errors import InputError
-from meshpress.taps import read_taps
+from meshpress.taps.layout import read_taps
 
 from conftest import write_taps
 
@@ -78,7 +78,7 @@ def test_projection_matches_trimesh_closest_point(small_car):
     body = meshpress.load_body(path)
     rng = np.random.default_rng(3)
     q = body.centroids[rng.choice(body.n_faces, 40)] + rng.normal(0, 0.02, (40, 3))
-    from meshpress.projection import nearest_on_faces
+    from meshpress.taps.projection import nearest_on_faces
 
     p, fi, d = nearest_on_faces(body, q)
     m = trimesh.Trimesh(body.vertices, body.faces, process=False)

@@ -7,13 +7,13 @@ import dataclasses
 import numpy as np
 import pytest
 
-from meshpress.body import Axles, Body
+from meshpress.bodies.body import Axles, Body
 from meshpress.errors import InputError
 from meshpress.fields import make_field
-from meshpress.kriging import SurfaceGP
-from meshpress.patches import Carrier
-from meshpress.projection import ProjectedTaps, nearest_on_faces
-from meshpress.uncertainty import (K95, Measurement, compute_uncertainty, difference_u, figure_face_weights,
+from meshpress.bands.kriging import SurfaceGP
+from meshpress.bands.patches import Carrier
+from meshpress.taps.projection import ProjectedTaps, nearest_on_faces
+from meshpress.bands.uncertainty import (K95, Measurement, compute_uncertainty, difference_u, figure_face_weights,
                                    generic_tap_weights, measurement_var, rbf_tap_weights, report_numbers, sensor_u)
 
 from conftest import icosphere
@@ -217,7 +217,7 @@ def test_band_covers_sphere_truth_and_reports(sphere):
 def test_figure_with_no_tap_near_its_region_gets_a_wide_band():
     # The car-like sample body (invented field): 40 taps on the front half only, against 40 spread over the
     # whole body.  The rear axle's figure depends on the unseen rear half, so its band must widen.
-    from meshpress import samples
+    from meshpress.bodies import samples
 
     v, f = samples.car_body(40, 30)
     v = v - [2.15, 0, 0]
@@ -323,7 +323,7 @@ def test_regions_in_a_spectral_kernel_match_the_dense_formulas(sphere):
     gp = SurfaceGP(car.distance, kernel="lb-matern32", spectrum=car.spectrum(), length_scale=0.6, variance=0.5,
                    nugget=1e-4, groups=groups).fit(car.points_matrix(taps.points), taps.values)
     lam, phi, area = car.spectrum()
-    from meshpress.gpkernels import spectral_density
+    from meshpress.bands.gpkernels import spectral_density
 
     g = spectral_density(lam, 0.6, 1.5)
     B = groups[:, None] == groups[None, :]
@@ -410,7 +410,7 @@ def test_orientation_scale_is_fitted_at_the_likelihood_optimum(form):
     assert 0.1 < th < 10.0  # an interior optimum, not a bound
 
     def loglik(t):
-        from meshpress.gpkernels import orientation_factor
+        from meshpress.bands.gpkernels import orientation_factor
 
         n = nrm[idx]
         F = orientation_factor(1.0 - n @ n.T, t, form)[0]
@@ -480,7 +480,7 @@ def test_stagnation_prior_matches_a_gp_with_a_trend_of_known_prior_mean_on_a_lin
     # DotProduct (sigma_0 = 0) on the Newtonian features, b = (1, 0) (impact term at full stagnation, Cp = 1).
     from sklearn.gaussian_process.kernels import DotProduct, Matern
 
-    from meshpress.gptrend import impact_prior, trend_features
+    from meshpress.bands.gptrend import impact_prior, trend_features
 
     x = np.linspace(0.0, 2.0, 61)
     d = np.abs(x[:, None] - x[None, :])
@@ -515,7 +515,7 @@ def test_stagnation_prior_fills_the_windward_side_of_a_sphere_with_no_tap_on_it(
     # the prior centred on stagnation puts the windward cap near Cp = 1 (a zero-mean prior leaves it near the
     # base level).
     from meshpress.fields import make_field
-    from meshpress.gptrend import trend_features
+    from meshpress.bands.gptrend import trend_features
 
     v, f = icosphere(3)
     body = Body(v, f, axles=Axles(-0.5, 0.5))
@@ -549,7 +549,7 @@ def test_stagnation_prior_is_kept_or_dropped_by_marginal_likelihood():
     # Newton's law at Cp_max = 1 on the windward side (Anderson, ch. 3) the prior centred on stagnation fits the
     # taps better than one centred on 0, and with a windward side in suction (Cp = -0.5 cos^2, invented) worse;
     # the choice keeps the better fit, and its likelihoods are those of the two fits made separately.
-    from meshpress.gptrend import impact_prior, trend_features
+    from meshpress.bands.gptrend import impact_prior, trend_features
 
     v, f = icosphere(3)
     body = Body(v, f, axles=Axles(-0.5, 0.5))
@@ -608,7 +608,7 @@ def test_cli_uncertainty_report_map_and_spread(cli, samples_dir, tmp_path):
 def test_importance_is_largest_where_no_tap_is(sphere):
     # Taps on the front half only: for the drag-like figure the unseen rear must carry more importance per area
     # than the tapped front (the posterior sd grows away from data; Rasmussen and Williams 2006, sec. 2.2).
-    from meshpress.bandreport import importance_per_area
+    from meshpress.outputs.bandreport import importance_per_area
 
     taps = make_taps(sphere, fib_points(60, hemisphere="front"))
     res = compute_uncertainty(sphere, taps, ref_area=np.pi)
@@ -658,7 +658,7 @@ def test_field_outside_the_band_is_named():
     from scipy.stats import norm
 
     from meshpress.commands.uncertainty import format_bands
-    from meshpress.uncertainty import Band, UncertaintyResult, field_outside
+    from meshpress.bands.uncertainty import Band, UncertaintyResult, field_outside
 
     z = norm.ppf(0.975)
     bands = [Band("CL", 0.30, 0.10, 0.0, 0.10, 0.0, 0.30 + 1.01 * z * 0.10),

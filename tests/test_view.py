@@ -6,9 +6,9 @@ import numpy as np
 import pytest
 
 from conftest import icosphere
-from meshpress.body import Body
-from meshpress.distribution import lift_distribution, section_at_y, surface_quantities
-from meshpress.projection import ProjectedTaps
+from meshpress.bodies.body import Body
+from meshpress.loads.distribution import lift_distribution, section_at_y, surface_quantities
+from meshpress.taps.projection import ProjectedTaps
 
 RHO_G = 1000.0 * 9.80665  # water, standard gravity (CGPM 1901), N/m3
 
@@ -115,7 +115,7 @@ def _read_vtk(path):
 
 
 def test_vtp_and_vtu_carry_the_field(tmp_path):
-    from meshpress.export import write_body
+    from meshpress.outputs.export import write_body
 
     body = _sphere_body(3)
     p = 100.0 * body.centroids[:, 0]
@@ -135,7 +135,7 @@ def test_vtp_and_vtu_carry_the_field(tmp_path):
 
 def test_body_file_must_be_vtk(tmp_path):
     from meshpress.errors import InputError
-    from meshpress.export import write_body
+    from meshpress.outputs.export import write_body
 
     body = _sphere_body(1)
     with pytest.raises(InputError, match=r"\.vtp or \.vtu"):
@@ -145,7 +145,7 @@ def test_body_file_must_be_vtk(tmp_path):
 def test_tap_csv_round_trips_awkward_names(tmp_path):
     import pandas as pd
 
-    from meshpress.export import tap_rows, write_tap_csv
+    from meshpress.outputs.export import tap_rows, write_tap_csv
 
     body = _sphere_body(2)
     names = ['<script>alert("x")</script>', "a,b", 'quote"d']
@@ -171,7 +171,7 @@ def _image_is_a_picture(img, size):
 
 
 def test_views_render_off_screen_at_the_requested_size():
-    from meshpress.view3d import VIEWS, render_views
+    from meshpress.outputs.view3d import VIEWS, render_views
 
     body = _sphere_body(3, 0.5)
     cp = body.centroids[:, 0] / 0.5  # antisymmetric: -1 at the front, +1 at the back
@@ -188,7 +188,7 @@ def test_views_render_off_screen_at_the_requested_size():
 
 
 def test_colour_limits_are_symmetric_about_zero():
-    from meshpress.view3d import colour_field
+    from meshpress.outputs.view3d import colour_field
 
     body = _sphere_body(2)
     v = 3.0 + body.centroids[:, 2]  # all positive: the scale still straddles zero
@@ -199,7 +199,7 @@ def test_colour_limits_are_symmetric_about_zero():
 
 
 def test_decimated_copy_for_big_meshes_keeps_the_field():
-    from meshpress.view3d import body_polydata
+    from meshpress.outputs.view3d import body_polydata
 
     body = _sphere_body(5)
     vals = body.vertices[:, 2].copy()
@@ -219,7 +219,7 @@ def _lightness(rgb):
 
 
 def test_colour_map_is_diverging_with_its_lightest_colour_at_zero():
-    from meshpress.view3d import _cmap
+    from meshpress.outputs.view3d import _cmap
 
     cmap = _cmap()
     L = _lightness(cmap(np.arange(cmap.N)))  # every colour of the table once

@@ -28,13 +28,13 @@ def add_parser(sub):
 
 
 def run(args) -> int:
-    from ..analysis import resolve_q
-    from ..compare import compare_methods, format_comparison
+    from ..loads.analysis import resolve_q
+    from ..loads.compare import compare_methods, format_comparison
     from ..errors import InputError
     from ..fields import METHODS
     from ..progress import Progress
-    from ..results import write_json
-    from ..results import check_not_input
+    from ..loads.results import write_json
+    from ..loads.results import check_not_input
 
     progress = Progress(enabled=False if args.quiet else None)
     methods = _methods(args, METHODS)
@@ -43,7 +43,7 @@ def run(args) -> int:
         if out:
             check_not_input(out, (args.mesh, args.taps))
     if args.picture:
-        from ..view3d import VIEWS
+        from ..outputs.view3d import VIEWS
 
         if not args.picture.lower().endswith(".png"):
             raise InputError(f"--picture {args.picture!r}: the picture must be a .png file")
@@ -87,9 +87,9 @@ def _methods(args, known):
 
 def _picture(path, body, taps, fields, c, q, args, progress):
     """The methods' fields from one view, one colour scale, CL and LOO error in each title."""
-    from ..plots import image_grid, png_bytes
-    from ..results import replace_into
-    from ..view3d import render_fields
+    from ..outputs.plots import image_grid, png_bytes
+    from ..loads.results import replace_into
+    from ..outputs.view3d import render_fields
 
     fields = {k: v for k, v in fields.items() if v is not None}
     images = render_fields(body, fields, taps, view=args.camera, kind=taps.kind, q=q, p_ref=args.p_ref,

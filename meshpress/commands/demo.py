@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from ..errors import InputError
+from ..bundled import sample_path
 
 #: How the bundled sample was made (see scripts/make_samples.py): mm, y up, forward -z.
 DEMO_SETTINGS = dict(length_unit="mm", up="+y", forward="-z", front_axle=-250.0, rear_axle=2350.0)
@@ -12,15 +12,6 @@ DEMO_SPEED_KMH = 100.0
 #: Stated accuracy of the demo's (invented) pressure sensors, Pa: the sample readings carry 2 Pa of noise
 #: (scripts/make_samples.py), a rectangular +/- 3.5 Pa has a standard uncertainty of 2.0 Pa (GUM 4.3.7).
 DEMO_SENSOR_PA = 3.5
-
-
-def sample_dir() -> Path:
-    """The bundled sample_meshes/ folder (next to the package in a source checkout)."""
-    here = Path(__file__).resolve().parents[2] / "sample_meshes"
-    if not (here / "coupe.stl").is_file():
-        raise InputError(f"the sample data is missing from {here}; install meshpress from a source checkout "
-                         "(pip install -e .)")
-    return here
 
 
 def add_parser(sub):
@@ -38,14 +29,13 @@ def add_parser(sub):
 
 
 def run(args) -> int:
-    from ..analysis import resolve_q, run_loads_parts
+    from ..loads.analysis import resolve_q, run_loads_parts
     from ..progress import Progress
-    from ..results import write_json
+    from ..loads.results import write_json
     from .loads import bands_measurement, format_loads, write_loads_report
 
-    d = sample_dir()
-    mesh = d / ("coupe_scan.stl" if args.scan else "coupe.stl")
-    taps = d / "coupe_taps.csv"
+    mesh = sample_path("coupe_scan.stl" if args.scan else "coupe.stl")
+    taps = sample_path("coupe_taps.csv")
     progress = Progress(enabled=False if args.quiet else None)
     q = resolve_q(speed=DEMO_SPEED_KMH / 3.6)
     print(f"meshpress demo: {mesh.name} with {taps.name} at {DEMO_SPEED_KMH:g} km/h (INVENTED DEMO DATA)\n")
@@ -58,7 +48,7 @@ def run(args) -> int:
     out = Path(args.out)
     out.mkdir(parents=True, exist_ok=True)
     bands = {"uncertainty": run.bands.to_dict()} if run.bands is not None else {}
-    from ..report import missing_libraries
+    from ..outputs.report import missing_libraries
 
     missing = [] if args.no_report else missing_libraries()
     if args.no_report or missing:  # with a report, the report writes loads.json (json_extra)

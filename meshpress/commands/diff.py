@@ -42,7 +42,7 @@ def compare_files(a_path, b_path) -> dict:
     """Compare two result JSON files: figures, taps by name, faces when both have a .faces.npy beside them."""
     import numpy as np
 
-    from ..runs import DIFF_FIGURES
+    from ..sheets.runs import DIFF_FIGURES
 
     a, b = _load_json(a_path), _load_json(b_path)
     d = {"base": str(a_path), "other": str(b_path), "delta": {}, "base_figures": {}, "other_figures": {}}
@@ -112,12 +112,12 @@ def format_diff(d) -> str:
 
 
 def run(args) -> int:
-    from ..results import _clean, write_atomic
+    from ..loads.results import _clean, write_atomic
 
     if args.sheet:
         from ..progress import Progress
-        from ..runs import process_sheet
-        from ..sheet import read_sheet
+        from ..sheets.runs import process_sheet
+        from ..sheets.sheet import read_sheet
 
         sheet = read_sheet(args.sheet)
         for k, n in (("base", args.base), ("other", args.other)):
@@ -138,7 +138,7 @@ def run(args) -> int:
     if args.json:
         import numpy as np
 
-        from ..results import replace_into
+        from ..loads.results import replace_into
 
         faces = d.pop("face_delta_cp", None)
         out = Path(args.json)

@@ -30,9 +30,9 @@ def add_parser(sub):
 
 
 def run(args) -> int:
-    from ..analysis import resolve_q, run_loads_parts
+    from ..loads.analysis import resolve_q, run_loads_parts
     from ..progress import Progress
-    from ..results import check_not_input, write_json
+    from ..loads.results import check_not_input, write_json
 
     progress = Progress(enabled=False if args.quiet else None)
     q = resolve_q(args.q, speed_mps(args.speed), args.air_density)
@@ -62,8 +62,8 @@ def run(args) -> int:
 
 
 def bands_measurement(sensor_accuracy=0.0) -> dict:
-    """``bands`` argument of :func:`meshpress.analysis.run_loads_parts` for a stated sensor accuracy."""
-    from ..uncertainty import sensor_u
+    """``bands`` argument of :func:`meshpress.loads.analysis.run_loads_parts` for a stated sensor accuracy."""
+    from ..bands.uncertainty import sensor_u
 
     return {"sensor": sensor_u(sensor_accuracy)}
 
@@ -72,7 +72,7 @@ def format_loads(run) -> str:
     """The loads table; with bands of the same model, one answer per figure with its band on its row; with
     bands of another method's field, the bands' own table below (the field column beside the estimate)."""
     from ..fields.posterior import PosteriorField
-    from ..textreport import format_result
+    from ..outputs.textreport import format_result
     from .uncertainty import format_bands
 
     if run.bands is None:
@@ -85,11 +85,11 @@ def format_loads(run) -> str:
 def write_loads_report(run, out, *, protect, progress, **kw):
     """The HTML report of a run, with its bands' section when it has bands (pyvista and matplotlib load here)."""
     from ..fields.posterior import PosteriorField
-    from ..report import write_report
+    from ..outputs.report import write_report
 
     sections, extra, json_extra = (), None, None
     if run.bands is not None:
-        from ..bandreport import bands_section_html, importance_png
+        from ..outputs.bandreport import bands_section_html, importance_png
 
         own = isinstance(run.field, PosteriorField)
         with progress.step("rendering the map"):

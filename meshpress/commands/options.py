@@ -36,7 +36,7 @@ def add_flow_options(p):
     g.add_argument("--ref-area", type=float, metavar="A", help="reference area, m2 (default: frontal area)")
 
 
-# Literal copy of meshpress.gpkernels.KERNELS (importing it would load numpy just to print --help; a test
+# Literal copy of meshpress.bands.gpkernels.KERNELS (importing it would load numpy just to print --help; a test
 # keeps the two equal).
 KRIGING_KERNELS = ("exponential", "matern32", "lb-matern12", "lb-matern32", "lb-matern52", "lb-heat")
 
@@ -50,7 +50,7 @@ def add_gp_kernel_option(g, default: str, about: str):
 def add_gp_orientation_option(g, default: bool, form: str):
     """``--orientation-gp on|off`` and ``--orientation-kernel``: the normals' factor in the kriging correlation
     and its form."""
-    from ..gpkernels import ORIENTATION_KERNELS
+    from ..bands.gpkernels import ORIENTATION_KERNELS
 
     g.add_argument("--orientation-gp", default="on" if default else "off", choices=("on", "off"),
                    help="kriging correlation also falls with the angle between the surface normals, at a scale "
@@ -83,7 +83,7 @@ def add_stagnation_option(g):
 
 def stagnation_prior(args, default=True):
     """``--stagnation-prior`` as the models take it: "auto", True or False (``default`` when not given)."""
-    from ..gptrend import STAGNATION_SETTINGS
+    from ..bands.gptrend import STAGNATION_SETTINGS
 
     v = getattr(args, "stagnation_prior", None)
     return default if v is None else STAGNATION_SETTINGS[v]
@@ -161,7 +161,7 @@ def max_distance_m(text, length_unit) -> float:
 
 def _flow_q(args) -> float | None:
     """The run's dynamic pressure (Pa) from --q or --speed, or None (the stagnation level of readings in Pa)."""
-    from ..analysis import resolve_q
+    from ..loads.analysis import resolve_q
 
     return resolve_q(getattr(args, "q", None), speed_mps(getattr(args, "speed", None)),
                      getattr(args, "air_density", None))
@@ -207,16 +207,16 @@ def method_settings(args, method=None) -> dict:
 def load_inputs(args, progress, *, values: bool = True):
     """The body and, when ``args.taps`` is given, its taps placed on it, from the shared options.
 
-    ``values=False`` reads the taps as a layout (positions only; :func:`meshpress.taps.read_taps`).
+    ``values=False`` reads the taps as a layout (positions only; :func:`meshpress.taps.layout.read_taps`).
 
     Returns
     -------
     body : Body
     taps : ProjectedTaps or None
     """
-    from ..body import load_body
-    from ..projection import project_taps
-    from ..taps import read_taps
+    from ..bodies.body import load_body
+    from ..taps.projection import project_taps
+    from ..taps.layout import read_taps
 
     body = load_body(args.mesh, length_unit=args.length_unit, up=args.up, forward=args.forward,
                      front_axle=args.front_axle, rear_axle=args.rear_axle, ground=args.ground, progress=progress)

@@ -83,12 +83,12 @@ def _faces(path, body):
 
 def run(args) -> int:
 
-    from ..analysis import resolve_q
+    from ..loads.analysis import resolve_q
     from ..errors import InputError
-    from ..planning import plan_taps
+    from ..bands.planning import plan_taps
     from ..progress import Progress
-    from ..results import check_not_input, write_atomic
-    from ..taps import has_readings
+    from ..loads.results import check_not_input, write_atomic
+    from ..taps.layout import has_readings
     from ..units import LENGTH_UNITS, length_factor, parse_quantity
 
     progress = Progress(enabled=False if args.quiet else None)
@@ -140,7 +140,7 @@ def run(args) -> int:
     if len(pts) < args.add:
         print(f"  warning: only {len(pts)} of {args.add} taps fit the exclusions and the spacing")
     if args.picture:
-        from ..planview import plan_picture
+        from ..outputs.planview import plan_picture
 
         plan_picture(body, plan, taps, args.picture)
         print(f"  wrote {args.picture}")

@@ -37,9 +37,9 @@ def _npy(a) -> bytes:
 def result_files(result, *, plot=True) -> dict:
     """Relative path -> content of every output file of a test."""
     from .. import __version__
-    from ..results import CAUTION, _clean
-    from ..runs import _safe, bands_csv, configuration_to_dict, run_to_dict, speed_csv, summary_csv
-    from ..speed import plot_speed_tables
+    from ..loads.results import CAUTION, _clean
+    from ..sheets.runs import _safe, bands_csv, configuration_to_dict, run_to_dict, speed_csv, summary_csv
+    from ..sheets.speed import plot_speed_tables
 
     dump = (lambda d: json.dumps(_clean(d), indent=2) + "\n")
     files = {"summary.csv": summary_csv(result)}
@@ -83,8 +83,8 @@ def _c(v, width=8):
 
 def format_test(result) -> str:
     """The readable summary printed by ``meshpress run``."""
-    from ..results import CAUTION
-    from ..speed import SPEED_CAUTION
+    from ..loads.results import CAUTION
+    from ..sheets.speed import SPEED_CAUTION
     from ..units import speed_factor
 
     s = result.sheet
@@ -158,7 +158,7 @@ def _pm(b, width=18):
 def format_bands_summary(result) -> list:
     """Lines: each configuration's and each change's CL, CD, CLF, CLR as estimate +/- u, and the change sentences."""
     from ..fields import DEFAULT_METHOD
-    from ..uncertainty import field_outside
+    from ..bands.uncertainty import field_outside
 
     figs = ("CL", "CD", "CLF", "CLR")
 
@@ -205,9 +205,9 @@ def format_bands_summary(result) -> list:
 
 def run(args) -> int:
     from ..progress import Progress
-    from ..resultsdir import check_output_dir, write_folder
-    from ..runs import process_sheet
-    from ..sheet import read_sheet
+    from ..outputs.resultsdir import check_output_dir, write_folder
+    from ..sheets.runs import process_sheet
+    from ..sheets.sheet import read_sheet
 
     sheet = read_sheet(args.sheet)
     out = Path(args.out) if args.out else sheet.path.parent / f"{sheet.path.stem}-results"

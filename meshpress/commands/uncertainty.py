@@ -2,9 +2,9 @@
 
 A separate command (the ``loads`` command is left as it is): it runs the same
 body, taps and field as ``loads``, then a kriging model along the surface for
-the bands (meshpress.uncertainty, meshpress.kriging).  With ``--baseline`` it
+the bands (meshpress.bands.uncertainty, meshpress.bands.kriging).  With ``--baseline`` it
 also gives every figure's change (TAPS minus BASE_TAPS) with the band of the
-change, in which the errors the two runs share cancel (meshpress.change).
+change, in which the errors the two runs share cancel (meshpress.bands.change).
 """
 
 from __future__ import annotations
@@ -86,7 +86,7 @@ def read_tap_u(path, names, kind, pressure_unit="Pa"):
     import pandas as pd
 
     from ..errors import InputError
-    from ..tables import read_table
+    from ..taps.tables import read_table
     from ..units import pressure_factor
 
     df = read_table(path, "tap table")
@@ -108,7 +108,7 @@ def read_tap_u(path, names, kind, pressure_unit="Pa"):
 
 def _sensor(args, kind):
     from ..errors import InputError
-    from ..uncertainty import sensor_u
+    from ..bands.uncertainty import sensor_u
     from ..units import pressure_factor
 
     if not args.sensor_accuracy:
@@ -148,14 +148,14 @@ def run(args) -> int:
     import json
     from pathlib import Path
 
-    from ..analysis import compute_loads, resolve_q
-    from ..coefficients import ISA_RHO
+    from ..loads.analysis import compute_loads, resolve_q
+    from ..loads.coefficients import ISA_RHO
     from ..errors import InputError
     from ..fields import DEFAULT_METHOD, PosteriorField, make_field
     from ..progress import Progress
-    from ..results import _clean, check_not_input, write_atomic
-    from ..textreport import format_result
-    from ..uncertainty import FIGURES, Measurement, compute_uncertainty, figure_face_weights, q_relative_u
+    from ..loads.results import _clean, check_not_input, write_atomic
+    from ..outputs.textreport import format_result
+    from ..bands.uncertainty import FIGURES, Measurement, compute_uncertainty, figure_face_weights, q_relative_u
 
     progress = Progress(enabled=False if args.quiet else None)
     speed = speed_mps(args.speed)
@@ -183,7 +183,7 @@ def run(args) -> int:
     base_taps, dropped = None, []
     if args.baseline:
         base_taps, taps, dropped = _baseline_taps(args, body, taps, progress)
-    from ..patches import Carrier
+    from ..bands.patches import Carrier
 
     # One carrier (covariance patches) for every kriging model here: the bands, the baseline's, the change's, and
     # the kriging field when it is the method or one of --spread.
@@ -218,7 +218,7 @@ def run(args) -> int:
         unc = compute_uncertainty(body, taps, meas=meas, field=field, **gp_kw)
     change = None
     if args.baseline:
-        from ..change import ErrorSources, compute_change
+        from ..bands.change import ErrorSources, compute_change
 
         base_field = make_field(args.method, **settings())
         base_loads = compute_loads(body, base_taps, base_field, q=q, ref_area=loads.ref_area_m2, p_ref=args.p_ref,
@@ -242,7 +242,7 @@ def run(args) -> int:
                                 "as exact")
     spread = None
     if spread_methods:
-        from ..compare import compare_methods
+        from ..loads.compare import compare_methods
 
         with progress.step("field methods for the spread"):
             c = compare_methods(body, taps, spread_methods, settings=settings, q=q,
@@ -269,18 +269,18 @@ def run(args) -> int:
         write_atomic(args.json, json.dumps(_clean(d), indent=2) + "\n", protect=inputs)
         print(f"\n  wrote {args.json}")
     if args.map or args.report:
-        from ..bandreport import bands_section_html, importance_png
+        from ..outputs.bandreport import bands_section_html, importance_png
 
         with progress.step("rendering the map"):
             png = importance_png(unc, body, taps, args.map_figure)
         if args.map:
-            from ..results import replace_into
+            from ..loads.results import replace_into
 
             replace_into(args.map, lambda tmp: Path(tmp).write_bytes(png), protect=inputs)
             print(f"  wrote {args.map}")
         if args.report:
-            from ..analysis import LoadRun
-            from ..report import write_report
+            from ..loads.analysis import LoadRun
+            from ..outputs.report import write_report
 
             html = bands_section_html(unc, field_name=field.describe(), spread=spread, map_png=png,
                                       map_figure=args.map_figure)
@@ -307,7 +307,7 @@ def _spread_methods(text):
 
 
 def _face_values(loads):
-    from ..runs import face_values
+    from ..sheets.runs import face_values
 
     return face_values(loads)
 
@@ -320,10 +320,10 @@ def _baseline_taps(args, body, taps, progress):
     base, taps, dropped
         The baseline taps and the config taps, both restricted to the shared ones, and the names left out.
     """
-    from ..change import match_taps
+    from ..bands.change import match_taps
     from ..errors import InputError
-    from ..projection import project_taps
-    from ..taps import read_taps
+    from ..taps.projection import project_taps
+    from ..taps.layout import read_taps
     from ..tolerances import TOL
     from .options import max_distance_m
 
@@ -369,7 +369,7 @@ def format_change(ch) -> str:
 
 def format_bands(unc, field_name="field") -> str:
     """Plain-text table: estimate +/- u, 95 % interval, budget, and the field's own value beside."""
-    from ..uncertainty import field_outside
+    from ..bands.uncertainty import field_outside
 
     lines = ["uncertainty (kriging along the surface; 95 % interval = estimate +/- 1.96 u)", ""]
     lines.append(f"  {'figure':<16}{'estimate':>11}{'u':>10}   {'95 % interval':<24}{'meas.':>9}{'sampl.':>9}"

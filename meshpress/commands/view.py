@@ -8,7 +8,7 @@ from .options import add_body_options, add_field_options, add_flow_options, max_
 
 
 def add_parser(sub):
-    from ..view3d import QUANTITIES, VIEWS
+    from ..outputs.view3d import QUANTITIES, VIEWS
 
     p = sub.add_parser("view", help="show the body coloured by its pressure field (window, or PNG with --png)",
                        description="Build the field as 'meshpress loads' does and show it on the body: in an "
@@ -47,12 +47,12 @@ def _size(text):
 
 
 def run(args) -> int:
-    from ..analysis import resolve_q, run_loads_parts
+    from ..loads.analysis import resolve_q, run_loads_parts
     from ..errors import InputError
     from ..progress import Progress
-    from ..view3d import VIEWS, BodyView, has_display
+    from ..outputs.view3d import VIEWS, BodyView, has_display
 
-    from ..report import missing_libraries
+    from ..outputs.report import missing_libraries
 
     if missing_libraries():
         raise InputError(f"view needs {', '.join(missing_libraries())}: pip install {' '.join(missing_libraries())}")
@@ -62,7 +62,7 @@ def run(args) -> int:
     if args.camera == "all" and not args.png:
         raise InputError("--camera all needs --png OUT")
     if args.png:
-        from ..results import check_not_input
+        from ..loads.results import check_not_input
 
         check_not_input(args.png, (args.mesh, args.taps))
     progress = Progress(enabled=False if args.quiet else None)
@@ -95,7 +95,7 @@ def run(args) -> int:
 
 def _save_png(view, name, out: Path):
     """Render and write completely or not at all."""
-    from ..results import replace_into
+    from ..loads.results import replace_into
 
     img = view.screenshot(name)
     from PIL import Image

@@ -1,5 +1,7 @@
-"""Pressure-field methods, registered by name.
+"""Fields: the pressure over every face, from the taps.
 
+In: a :class:`~meshpress.bodies.body.Body` and :class:`~meshpress.taps.projection.ProjectedTaps` with values.
+Out: one value per face (Pa or Cp) from a fitted field method, one method per module, registered by name.
 Every method follows :class:`~meshpress.fields.base.Field`: ``fit(body, taps)``
 then ``face_values()``.  docs/methods.md describes each one and its source.
 """
@@ -40,7 +42,7 @@ def make_field(method: str = DEFAULT_METHOD, *, regions=None, empty_value=None, 
     method : str
         One of :data:`METHODS`.
     regions : str or (m,) array, optional
-        Fit the method on each region separately (:mod:`meshpress.regions`).
+        Fit the method on each region separately (:mod:`meshpress.bodies.regions`).
     empty_value : float, optional
         Value of a region without taps (with ``regions``).
     **settings

@@ -29,11 +29,11 @@ no tap takes the trend ``a``, and leave-one-out residuals follow in closed form
 (Rippa 1999).
 
 Convergence.  On the unit sphere the biharmonic minimiser has a closed form,
-Wahba's spline (:func:`meshpress.exact.sphere_spline`); the discrete field
+Wahba's spline (:func:`meshpress.bodies.exact.sphere_spline`); the discrete field
 converges to it at second order in the edge length on uniform, lofted and
 decimated meshes (``scripts/bench_biharmonic_convergence.py``).  What spoils
 it on real meshes is their coarsest part: the field is solved on a copy whose
-edges are at most ``max_edge_ratio`` mean edges (:mod:`meshpress.workmesh`).
+edges are at most ``max_edge_ratio`` mean edges (:mod:`meshpress.bodies.workmesh`).
 The harmonic problem has no continuum limit with point data (a point has zero
 capacity in 2-D): refined, the harmonic field tends to a constant with
 logarithmic spikes at the taps; it is a bounded cross-check, not a load method
@@ -102,7 +102,7 @@ class BiharmonicField(BoundedMixin, Field):
     far_value : float, optional
     max_edge_ratio : float or None
         The field is solved on a copy whose edges are at most this many times the
-        mean edge (:func:`meshpress.workmesh.refine_long_edges`; default 2); None
+        mean edge (:func:`meshpress.bodies.workmesh.refine_long_edges`; default 2); None
         solves on the mesh (or decimated copy) as it is.
     """
 

@@ -25,7 +25,7 @@ choosing an RBF shape parameter.
 Orientation.  With ``orientation=True`` the kernel is also
 multiplied by a factor of the angle between the two places' unit normals,
 the Matérn-5/2 function of their chordal distance at a scale ``theta``
-(:func:`meshpress.gpkernels.orientation_factor`, as in the kriging bands);
+(:func:`meshpress.bands.gpkernels.orientation_factor`, as in the kriging bands);
 ``theta`` is a rung of the leave-one-out choice beside the length scale
 (infinity, i.e. no factor, 1.0, 0.6 and 0.35).  A tap on a wing's upper face
 then says little about the lower face 10 mm away round the leading edge, nor
@@ -44,7 +44,7 @@ average of all of them.  Directions in which the taps' normals hardly vary
 (below ``TREND_NORMAL_SPREAD`` rms) are left out of the trend.  The
 ``newtonian`` trend is a constant plus Newton's impact pressure on skin
 facing the flow and a base level on rear-facing skin
-(:func:`meshpress.gptrend.trend_features`); a column the taps do not see
+(:func:`meshpress.bands.gptrend.trend_features`); a column the taps do not see
 (no tap on the base, say) is left out.  With
 ``trend="auto"`` all three are candidates beside the length scales and ridges,
 and the leave-one-out error chooses.  The default is the constant: on the
@@ -60,7 +60,7 @@ leave-one-out residuals (the choice re-made without each tap, in closed form:
 by.  The ladder of lengths and the ridge floor are set once from all taps.
 
 The fit is made on a simplified working copy of big meshes
-(:mod:`meshpress.workmesh`); values beyond the taps tend to the fitted constant
+(:mod:`meshpress.bodies.workmesh`); values beyond the taps tend to the fitted constant
 and are bounded (:mod:`meshpress.fields.bounds`).
 """
 
@@ -69,8 +69,8 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import InputError
-from ..gpkernels import orientation_factor
-from ..gptrend import trend_features
+from ..bands.gpkernels import orientation_factor
+from ..bands.gptrend import trend_features
 from .base import Field
 from .bounds import BoundedMixin
 from .kernels import GEODESIC_KERNELS, matern, nested_residuals, solve_with_nested
@@ -91,7 +91,7 @@ TREND_NEWTON_SPREAD = 0.05
 
 def newtonian_columns(features):
     """Indices of the Newtonian trend's columns that the taps can fit, from their values at the taps (k, 2)
-    (:func:`meshpress.gptrend.trend_features`): those that spread by at least ``TREND_NEWTON_SPREAD`` rms
+    (:func:`meshpress.bands.gptrend.trend_features`): those that spread by at least ``TREND_NEWTON_SPREAD`` rms
     (a column no tap sees, e.g. the base with no tap on it, would get an arbitrary coefficient)."""
     return [j for j in range(features.shape[1]) if float(np.std(features[:, j])) >= TREND_NEWTON_SPREAD]
 
@@ -124,7 +124,7 @@ class GeodesicRBFField(BoundedMixin, Field):
     trend : {"constant", "normal", "newtonian", "auto"}
         Mean of the field: a constant (default), linear in the unit normal,
         Newtonian (a constant plus the impact and base columns of
-        :func:`meshpress.gptrend.trend_features`), or the one of lowest
+        :func:`meshpress.bands.gptrend.trend_features`), or the one of lowest
         leave-one-out error.
     orientation : bool
         Let leave-one-out also choose a factor of the normals' angle (module

@@ -1,9 +1,9 @@
 """Kriging along the surface: the Gaussian-process posterior mean as a field.
 
 The field is the posterior mean of the surface Gaussian process of
-:mod:`meshpress.kriging` (the model behind ``meshpress uncertainty``), fitted
+:mod:`meshpress.bands.kriging` (the model behind ``meshpress uncertainty``), fitted
 to the taps by maximum marginal likelihood on a carrier of a few thousand
-patches (:mod:`meshpress.patches`) and carried to every face by the carrier's
+patches (:mod:`meshpress.bands.patches`) and carried to every face by the carrier's
 inverse-distance map.  Unlike the RBF methods, the length scale and the
 smoothing (nugget) are learned from the taps; its estimate is the one the
 uncertainty bands belong to.  Kriging with a constant mean (Matheron, Econ.
@@ -11,7 +11,7 @@ Geol. 58, 1963; Rasmussen and Williams 2006, ch. 2) plus, by default, a
 trend of Newton's impact pressure on skin facing the flow and a base level
 on rear-facing skin with coefficients of fitted prior variance (universal
 kriging in its Bayesian form, Rasmussen and Williams sec. 2.7;
-:func:`meshpress.gptrend.trend_features`).
+:func:`meshpress.bands.gptrend.trend_features`).
 
 Leave-one-out residuals have a closed form, ``[S^-1 y]_i / [S^-1]_ii``
 (Rasmussen and Williams eq. 5.12; Sundararajan and Keerthi, Neural Comput.
@@ -35,10 +35,10 @@ class KrigingField(BoundedMixin, Field):
     Parameters
     ----------
     kernel : str
-        Correlation along the surface (:data:`meshpress.gpkernels.KERNELS`,
+        Correlation along the surface (:data:`meshpress.bands.gpkernels.KERNELS`,
         comma-separated candidates, ``"auto"`` for the one of highest marginal
         likelihood, or ``"loo"``, the default: each of
-        :data:`meshpress.gpkernels.AUTO_KERNELS` fitted by maximum likelihood,
+        :data:`meshpress.bands.gpkernels.AUTO_KERNELS` fitted by maximum likelihood,
         and the one of lowest leave-one-out error at the taps kept.  The
         likelihood is the right judge of the bands' model; for the estimate
         itself cross-validation is the more robust one when no kernel is quite
@@ -48,7 +48,7 @@ class KrigingField(BoundedMixin, Field):
     patches : int
         Carrier size (patches of the covariance).
     trend : {"newtonian", "normal", None}
-        The mean's trend (:func:`meshpress.gptrend.trend_features`):
+        The mean's trend (:func:`meshpress.bands.gptrend.trend_features`):
         ``"newtonian"`` (default) adds Newton's impact pressure on skin facing
         the oncoming flow and a level on rear-facing skin, ``"normal"`` a mean
         linear in the surface normal, ``None`` a constant mean only.  On the
@@ -56,10 +56,10 @@ class KrigingField(BoundedMixin, Field):
         -0.105 to -0.016 and became the recommended method (docs/accuracy.md).
     orientation : bool
         Correlation also falls with the angle between the surface normals
-        (:class:`meshpress.kriging.SurfaceGP`); default on, as in the bands.
+        (:class:`meshpress.bands.kriging.SurfaceGP`); default on, as in the bands.
     stagnation : {"auto", True, False}
         Centre the Newtonian impact term on Cp = 1 (Cp readings only;
-        :func:`meshpress.gptrend.impact_prior`); ``"auto"`` (default) keeps it
+        :func:`meshpress.bands.gptrend.impact_prior`); ``"auto"`` (default) keeps it
         or 0, whichever the taps' marginal likelihood prefers.
     orientation_kernel : str
         Form of the normals' factor (default ``matern52``, as in the bands).
@@ -93,10 +93,10 @@ class KrigingField(BoundedMixin, Field):
 
     def _fit(self, body, taps, progress):
         from ..errors import InputError
-        from ..gpkernels import AUTO_KERNELS, SPECTRAL_KERNELS, kernel_names
-        from ..gptrend import TRENDS, stagnation_params
-        from ..kriging import SurfaceGP
-        from ..patches import Carrier
+        from ..bands.gpkernels import AUTO_KERNELS, SPECTRAL_KERNELS, kernel_names
+        from ..bands.gptrend import TRENDS, stagnation_params
+        from ..bands.kriging import SurfaceGP
+        from ..bands.patches import Carrier
 
         if len(taps) < 3:
             raise InputError(f"the kriging method needs at least 3 taps, got {len(taps)}")

@@ -1,10 +1,10 @@
 """The default field: the surface Gaussian process whose posterior also gives the bands.
 
 One model gives both the number and its band.  The field integrated into the
-loads is the posterior mean of :class:`meshpress.kriging.SurfaceGP`, fitted
+loads is the posterior mean of :class:`meshpress.bands.kriging.SurfaceGP`, fitted
 with the settings of ``meshpress uncertainty`` (kernel by marginal likelihood,
 Newtonian trend centred on stagnation, normals' factor on); the bands of
-:func:`meshpress.uncertainty.compute_uncertainty` reuse this very fit.  Every
+:func:`meshpress.bands.uncertainty.compute_uncertainty` reuse this very fit.  Every
 figure is linear in the face values, and the face values here are
 ``B @ m`` (the carrier's face matrix times the posterior mean at its nodes)
 with no clamping, so the integrated figure *is* the centre of its band
@@ -29,7 +29,7 @@ class PosteriorField(Field):
     ----------
     kernel : str
         Correlation along the surface (``"auto"``, the default: the one of
-        highest marginal likelihood among :data:`meshpress.gpkernels.AUTO_KERNELS`).
+        highest marginal likelihood among :data:`meshpress.bands.gpkernels.AUTO_KERNELS`).
     patches : int
         Carrier size (patches of the covariance).
     trend : {"newtonian", "normal", None}
@@ -44,7 +44,7 @@ class PosteriorField(Field):
         Stated variance of each tap's reading (taps' unit squared): the
         measurement part of the bands, which the fit takes as known noise.
     regions : str or (m,) array, optional
-        Regions modelled as independent fields (:mod:`meshpress.regions`).
+        Regions modelled as independent fields (:mod:`meshpress.bodies.regions`).
     carrier : Carrier, optional
         Reused when it belongs to the body being fitted.
     anisotropy : bool
@@ -76,7 +76,7 @@ class PosteriorField(Field):
 
     def _fit(self, body, taps, progress):
         from ..errors import InputError
-        from ..patches import Carrier
+        from ..bands.patches import Carrier
 
         if len(taps) < 3:
             raise InputError(f"the {self.name} method needs at least 3 taps, got {len(taps)}")
@@ -117,7 +117,7 @@ def fit_surface_gp(carrier, taps, tap_var=None, *, kernel="auto", trend="newtoni
     """Fit the bands' surface Gaussian process to the taps on a carrier.
 
     The one place where the model of the default field and of
-    :func:`meshpress.uncertainty.compute_uncertainty` is put together, so the
+    :func:`meshpress.bands.uncertainty.compute_uncertainty` is put together, so the
     two cannot drift apart.
 
     Parameters
@@ -140,8 +140,8 @@ def fit_surface_gp(carrier, taps, tap_var=None, *, kernel="auto", trend="newtoni
     B : (m, k) sparse matrix
         Carrier node values to face values.
     """
-    from ..gptrend import stagnation_params
-    from ..kriging import SurfaceGP
+    from ..bands.gptrend import stagnation_params
+    from ..bands.kriging import SurfaceGP
 
     groups, B = carrier.regions(regions)
     T = carrier.points_matrix(taps.points)

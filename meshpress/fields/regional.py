@@ -1,6 +1,6 @@
 """Any method, fitted separately on each region of the body.
 
-The body is cut into regions (:mod:`meshpress.regions`); each region is fitted
+The body is cut into regions (:mod:`meshpress.bodies.regions`); each region is fitted
 on its own taps with the chosen method, on its own faces only, so no value
 leaks across a region boundary (roof vs underbody, upper vs lower face of a
 wing).
@@ -29,7 +29,7 @@ class RegionalField(Field):
     method : str
         Name of the method used inside each region.
     regions : str or (m,) array
-        Region specification (:func:`meshpress.regions.face_regions`).
+        Region specification (:func:`meshpress.bodies.regions.face_regions`).
     empty_value : float, optional
         Value of a region that holds no tap (Pa or Cp as the taps).
     settings : dict, optional
@@ -47,7 +47,7 @@ class RegionalField(Field):
         return f"{self.method}+regions"
 
     def _fit(self, body, taps, progress):
-        from ..regions import face_regions, sub_body
+        from ..bodies.regions import face_regions, sub_body
         from . import make_field
 
         if self.method == "regions":

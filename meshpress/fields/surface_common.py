@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import InputError
-from ..workmesh import TARGET_FACES, work_mesh
+from ..bodies.workmesh import TARGET_FACES, work_mesh
 from .bounds import check_extrapolation
 
 

@@ -1,0 +1,462 @@
+"""The body: a cleaned, outward-wound surface in the vehicle frame.
+
+:func:`load_body` reads a file, merges duplicate vertices, drops degenerate and
+duplicate faces, maps the mesh into the vehicle frame (SAE J1594: x rearward,
+y right, z up, m, origin on the ground midway between the axles), makes the
+winding consistent and outward, and records what it found in a
+:class:`~meshpress.bodies.diagnostics.MeshReport`.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from functools import cached_property
+
+import numpy as np
+
+from . import orient
+from .diagnostics import MeshReport, boundary_loops
+from ..errors import InputError
+from .frame import FrameMap, rotation
+from .grouping import group
+from ..progress import Progress
+from .readers import read_surface
+from ..tolerances import TOL
+from ..units import LENGTH_UNITS, length_factor
+
+
+def _readonly(a: np.ndarray) -> np.ndarray:
+    a.flags.writeable = False
+    return a
+
+
+@dataclass(frozen=True)
+class Axles:
+    """Axle positions in the vehicle frame (m): front at -wheelbase/2, rear at +wheelbase/2."""
+
+    front_x: float
+    rear_x: float
+
+    @property
+    def wheelbase(self) -> float:
+        return self.rear_x - self.front_x
+
+
+class Body:
+    """A closed or open triangulated surface in the vehicle frame.
+
+    Geometry never changes after construction; derived arrays are computed
+    once, cached and handed out read-only.
+
+    Parameters
+    ----------
+    vertices : (n, 3) float
+        Vertex positions, m, vehicle frame.
+    faces : (m, 3) int
+        Triangles, wound so that the right-hand normal points outward.
+    frame : FrameMap, optional
+        Map from the source file's coordinates into this frame.
+    axles : Axles, optional
+        Axle positions; None when the user gave none.
+    report : MeshReport, optional
+        What the loader found.
+    warnings : list of str, optional
+        Doubts found while loading.
+    source : str, optional
+        The file the body came from.
+
+    Attributes
+    ----------
+    setup_warnings : list of str
+        The warnings that point at the unit or axes given (a subset of
+        ``warnings``), repeated in errors they may explain (a tap far from
+        the surface).
+    """
+
+    def __init__(self, vertices, faces, *, frame=None, axles=None, report=None, warnings=None, source=None):
+        self.vertices = _readonly(np.ascontiguousarray(vertices, dtype=float))
+        self.faces = _readonly(np.ascontiguousarray(faces, dtype=np.int64))
+        self.frame = frame
+        self.axles = axles
+        self.report = report
+        self.warnings = list(warnings or [])
+        self.setup_warnings = []
+        self.source = source
+
+    def _seed(self, **arrays):
+        """Fill caches with arrays the loader already computed (same geometry, so same values)."""
+        for name, a in arrays.items():
+            self.__dict__[name] = _readonly(np.ascontiguousarray(a, dtype=float))
+
+    @property
+    def n_faces(self) -> int:
+        return len(self.faces)
+
+    @cached_property
+    def triangles(self) -> np.ndarray:
+        """(m, 3, 3) float: corner positions of every face, m."""
+        return _readonly(self.vertices[self.faces])
+
+    @cached_property
+    def area_vectors(self) -> np.ndarray:
+        """(m, 3) float: n * dA of every face (outward normal times area), m2."""
+        t = self.triangles
+        return _readonly(0.5 * np.cross(t[:, 1] - t[:, 0], t[:, 2] - t[:, 0]))
+
+    @cached_property
+    def face_areas(self) -> np.ndarray:
+        """(m,) float: face areas, m2."""
+        return _readonly(np.linalg.norm(self.area_vectors, axis=1))
+
+    @cached_property
+    def face_normals(self) -> np.ndarray:
+        """(m, 3) float: outward unit normals."""
+        a = self.face_areas
+        with np.errstate(invalid="ignore", divide="ignore"):
+            n = self.area_vectors / a[:, None]
+        return _readonly(np.nan_to_num(n))
+
+    @cached_property
+    def centroids(self) -> np.ndarray:
+        """(m, 3) float: face centroids, m."""
+        return _readonly(self.triangles.mean(axis=1))
+
+    @cached_property
+    def centroid_tree(self):
+        """scipy cKDTree over face centroids."""
+        from scipy.spatial import cKDTree
+
+        return cKDTree(self.centroids)
+
+    @cached_property
+    def face_radius(self) -> np.ndarray:
+        """(m,) float: largest distance (m) from each face's centroid to its corners."""
+        d = self.triangles - self.centroids[:, None, :]
+        return _readonly(np.sqrt(np.einsum("ijk,ijk->ij", d, d).max(axis=1)))
+
+    @property
+    def max_face_radius(self) -> float:
+        """Largest distance (m) from a face centroid to one of its corners."""
+        return float(self.face_radius.max())
+
+    @cached_property
+    def vertex_faces_matrix(self):
+        """(n_vertices, m) sparse: area-weighted face -> vertex averaging matrix.
+
+        Row i averages the faces around vertex i with weights of their area.
+        """
+        from scipy import sparse
+
+        m = self.n_faces
+        rows = self.faces.ravel()
+        cols = np.repeat(np.arange(m), 3)
+        w = np.repeat(self.face_areas, 3)
+        A = sparse.csr_matrix((w, (rows, cols)), shape=(len(self.vertices), m))
+        s = np.asarray(A.sum(axis=1)).ravel()
+        s[s == 0] = 1.0
+        return sparse.diags(1.0 / s) @ A
+
+    @property
+    def area(self) -> float:
+        """Total surface area, m2."""
+        return float(self.face_areas.sum())
+
+    @property
+    def length(self) -> float:
+        """Overall length along x, m."""
+        return float(np.ptp(self.vertices[:, 0]))
+
+    def frontal_area(self, resolution: float = TOL.frontal_resolution_m) -> float:
+        """Projected area on the y-z plane (m2), rasterised at ``resolution`` m (cached)."""
+        return self._cached(("frontal", resolution), self._frontal_area_now, resolution)
+
+    def _frontal_area_now(self, resolution):
+        from ..loads.frontal import frontal_area
+
+        tri = self.triangles
+        if self.report is not None and self.report.watertight:
+            # Closed: the front-facing faces already cover the whole silhouette.
+            tri = tri[self.area_vectors[:, 0] < 0]
+        return frontal_area(tri, resolution)
+
+    def clusters(self, cell: float):
+        """Face clusters for :mod:`meshpress.loads.quadrature`, cells of ``cell`` m (cached)."""
+        from ..loads.quadrature import cluster_faces
+
+        return self._cached(("clusters", cell), cluster_faces, self.centroids, self.area_vectors, cell)
+
+    def prefetch(self, *, frontal_resolution: float | None = None, cluster_cell: float | None = None) -> None:
+        """Start the frontal area and the face clusters on a second thread.
+
+        Both are pure array work in which numpy releases the GIL, so on a
+        two-core machine they run beside tap projection and field fitting; the
+        first call of :meth:`frontal_area` or :meth:`clusters` then waits for it.
+        """
+        from concurrent.futures import ThreadPoolExecutor
+
+        jobs = []
+        if frontal_resolution is not None:
+            jobs.append((("frontal", frontal_resolution), self._frontal_area_now, (frontal_resolution,)))
+        if cluster_cell is not None:
+            from ..loads.quadrature import cluster_faces
+
+            jobs.append((("clusters", cluster_cell), cluster_faces, (self.centroids, self.area_vectors, cluster_cell)))
+        jobs = [j for j in jobs if j[0] not in self._cache]
+        if not jobs:
+            return
+        pool = ThreadPoolExecutor(max_workers=1, thread_name_prefix="meshpress-prefetch")
+        for key, fn, args in jobs:
+            self._cache[key] = pool.submit(fn, *args)
+        pool.shutdown(wait=False)
+
+    @property
+    def _cache(self) -> dict:
+        return self.__dict__.setdefault("_derived", {})
+
+    def _cached(self, key, fn, *args):
+        from concurrent.futures import Future
+
+        v = self._cache.get(key)
+        if isinstance(v, Future):
+            v = v.result()
+        elif v is None:
+            v = fn(*args)
+        self._cache[key] = v
+        return v
+
+    def volume(self) -> float:
+        """Enclosed volume (m3) by the divergence theorem, V = 1/3 sum c . n dA: meaningful when closed."""
+        return float(np.einsum("ij,ij->", self.centroids, self.area_vectors) / 3.0)
+
+    def volume_centroid(self) -> np.ndarray:
+        """(3,) float: centroid of the enclosed volume, m (closed bodies)."""
+        t = self.triangles
+        v6 = np.einsum("ij,ij->i", t[:, 0], np.cross(t[:, 1], t[:, 2]))
+        c = t.sum(axis=1) / 4.0
+        return (c * v6[:, None]).sum(axis=0) / v6.sum()
+
+
+def load_body(
+    path,
+    *,
+    length_unit: str = "m",
+    up: str = "+z",
+    forward: str = "-x",
+    front_axle: float | None = None,
+    rear_axle: float | None = None,
+    ground: float | None = None,
+    progress: Progress | None = None,
+) -> Body:
+    """Read a surface mesh and bring it into the vehicle frame.
+
+    Parameters
+    ----------
+    path : str or Path
+        Mesh file (STL, OBJ, PLY, OFF, GLB/GLTF, VTK/VTU/VTP, ...).
+    length_unit : {"m", "cm", "mm", "in", "ft"}
+        Unit of the file's coordinates.
+    up, forward : str
+        Signed mesh axes pointing up and forward, e.g. ``"+y"``, ``"-z"``.
+    front_axle, rear_axle : float, optional
+        Axle coordinates on the mesh's forward axis, in the mesh's unit, as
+        read off the file.  Both or neither.
+    ground : float, optional
+        Ground height on the mesh's up axis, in the mesh's unit; default: the
+        body's lowest point.
+    progress : Progress, optional
+        Progress display.
+
+    Returns
+    -------
+    Body
+    """
+    progress = progress or Progress(enabled=False)
+    if (front_axle is None) != (rear_axle is None):
+        raise InputError("give both --front-axle and --rear-axle, or neither")
+    scale = length_factor(length_unit, "--length-unit: ")
+    R = rotation(up, forward)
+    with progress.step("reading mesh"):
+        v, f, parts = read_surface(path)
+    with progress.step("cleaning mesh"):
+        v, f, av, merged, dropped = _clean(v, f)
+    p = scale * v @ R.T
+    # Origin: ground (lowest point or given), mid-wheelbase (or mid-length), mid-track.
+    frame = FrameMap(R, scale, np.zeros(3))
+    warnings = []
+    if ground is None:
+        gz = p[:, 2].min()
+    else:
+        gz = float((frame.to_vehicle(parse_up_point(up, ground)))[0, 2])
+    if front_axle is not None:
+        xf = frame.forward_coordinate_to_x(front_axle, forward)
+        xr = frame.forward_coordinate_to_x(rear_axle, forward)
+        if not xf < xr:
+            raise InputError(
+                f"front axle ({front_axle:g}) must be ahead of the rear axle ({rear_axle:g}) "
+                f"along the forward axis {forward}"
+            )
+        x0 = 0.5 * (xf + xr)
+        axles = Axles(xf - x0, xr - x0)
+        lo_x, hi_x = p[:, 0].min(), p[:, 0].max()
+        for name, x in (("front", xf), ("rear", xr)):
+            if not lo_x <= x <= hi_x:
+                warnings.append(f"the {name} axle lies outside the body's length; check --{name}-axle and --forward")
+    else:
+        x0 = 0.5 * (p[:, 0].min() + p[:, 0].max())
+        axles = None
+    y0 = 0.5 * (p[:, 1].min() + p[:, 1].max())
+    origin = np.array([x0, y0, gz])
+    frame = FrameMap(R, scale, origin)
+    p = p - origin
+    with progress.step("orienting faces"):
+        fa, fb, same_dir, boundary, bface = orient.edge_pairs(f)
+        flip, part, orientable = orient.consistent_flip(f, fa, fb, same_dir)
+        # R is a proper rotation, so the area vectors rotate with the points and scale with its square.
+        av = (scale * scale) * av @ R.T
+        tri = p[f]
+        centroids = tri.mean(axis=1)
+        av[flip] *= -1.0
+        out = orient.outward_flip(centroids, av, part)
+        total_flip = flip ^ out
+        av[out] *= -1.0
+        f = f.copy()
+        f[total_flip] = f[total_flip][:, ::-1]
+        tri[total_flip] = tri[total_flip][:, ::-1]
+        n_flipped = int(np.count_nonzero(total_flip))
+        # Edge structure after orientation, for the diagnostics: reversing a face reverses its edges.
+        same_dir = same_dir ^ total_flip[fa] ^ total_flip[fb]
+        rev = total_flip[bface]
+        boundary = boundary.copy()
+        boundary[rev] = boundary[rev][:, ::-1]
+    body = Body(p, f, frame=frame, axles=axles, source=str(path))
+    body._seed(triangles=tri, centroids=centroids, area_vectors=av)
+    with progress.step("checking mesh"):
+        holes = boundary_loops(boundary, p)
+        n_edges_used = 3 * len(f)
+        manifold = 2 * len(fa) == n_edges_used
+        watertight = bool(manifold and not same_dir.any() and len(boundary) == 0)
+        total = body.area
+        closure = float(np.linalg.norm(body.area_vectors.sum(axis=0)) / total)
+        bmin, bmax = p.min(axis=0), p.max(axis=0)
+        report = MeshReport(
+            faces=len(f),
+            vertices=len(p),
+            parts=parts,
+            components=int(part.max() + 1),
+            merged_vertices=merged,
+            dropped_faces=dropped,
+            flipped_faces=n_flipped,
+            area_m2=total,
+            bbox_min_m=bmin.tolist(),
+            bbox_max_m=bmax.tolist(),
+            watertight=watertight,
+            holes=len(holes),
+            hole_areas_m2=holes[:20],
+            closure=closure,
+            orientable=orientable,
+            volume_m3=body.volume() if watertight else None,
+        )
+    setup = _size_warnings(bmax - bmin, length_unit, scale) + _axis_warnings(bmax - bmin, up, forward)
+    warnings += setup
+    if not orientable:
+        warnings.append("some faces could not be wound consistently (non-orientable or non-manifold pieces)")
+    if closure > TOL.closure_warn:
+        warnings.append(
+            f"the surface is open (|sum n dA| = {closure:.2%} of its area, {len(holes)} holes): "
+            "the loads depend on the reference pressure p_ref (each 1 Pa of offset moves lift by "
+            f"{-body.area_vectors[:, 2].sum():+.3f} N and drag by {-body.area_vectors[:, 0].sum():+.3f} N)"
+        )
+    body.report = report
+    body.warnings = warnings
+    body.setup_warnings = setup
+    return body
+
+
+def parse_up_point(up: str, value: float) -> np.ndarray:
+    """A mesh point whose coordinate on the (unsigned) up axis is ``value``."""
+    from .frame import parse_axis
+
+    return np.abs(parse_axis(up)) * value
+
+
+def _clean(v: np.ndarray, f: np.ndarray):
+    """Merge duplicate vertices, drop degenerate and duplicate faces, unused vertices.
+
+    Returns
+    -------
+    v : (n, 3) float
+    f : (m, 3) int
+    area_vectors : (m, 3) float
+        Half the edge cross product of every face (n dA as wound), mesh units.
+    merged : int
+        Vertices removed by merging.
+    dropped : int
+        Faces dropped.
+    """
+    n0, m0 = len(v), len(f)
+    if f.min() < 0 or f.max() >= n0:
+        raise InputError("mesh faces refer to vertices that do not exist")
+    lo = v.min(axis=0)
+    span = float((v.max(axis=0) - lo).max()) or 1.0
+    # floor(x + 1/2) rounds the non-negative scaled coordinates in one pass.
+    q = ((v - lo) * (10.0**TOL.merge_digits / span) + 0.5).astype(np.int64)
+    # Pack the three quantised coordinates (< 2**21 each) into one int64: a 1D unique is several
+    # times faster than np.unique(axis=0) on millions of rows.
+    key = (q[:, 0] << 42) | (q[:, 1] << 21) | q[:, 2]
+    inv, first, _, _ = group(key)
+    v = v[first]
+    f = inv[f]
+    merged = n0 - len(v)
+    # Degenerate: repeated index or (near) zero area.
+    rep = (f[:, 0] == f[:, 1]) | (f[:, 1] == f[:, 2]) | (f[:, 2] == f[:, 0])
+    t = v[f]
+    cr = np.cross(t[:, 1] - t[:, 0], t[:, 2] - t[:, 0])
+    area = 0.5 * np.sqrt(np.einsum("ij,ij->i", cr, cr))
+    med = np.median(area[~rep]) if np.any(~rep) else 0.0
+    keep = ~rep & (area > TOL.degenerate_area_rel * med)
+    f, cr = f[keep], cr[keep]
+    # Duplicate faces (same three vertices in any order).
+    sf = np.sort(f, axis=1)
+    n = int(sf.max()) + 1
+    if n < 2**21:  # n**3 fits in an int64: one key per face
+        _, uniq, _, _ = group((sf[:, 0] * n + sf[:, 1]) * n + sf[:, 2])
+    else:
+        _, uniq = np.unique(sf, axis=0, return_index=True)
+    uniq = np.sort(uniq)
+    f, cr = f[uniq], cr[uniq]
+    if len(f) == 0:
+        raise InputError("the mesh has no faces left after dropping degenerate ones")
+    used = np.zeros(len(v), dtype=bool)
+    used[f.ravel()] = True
+    remap = np.cumsum(used) - 1
+    v, f = v[used], remap[f]
+    return v, f, 0.5 * cr, merged, m0 - len(f)
+
+
+def _axis_warnings(extent: np.ndarray, up: str, forward: str) -> list[str]:
+    """Warn when the body is much shorter along the forward axis than across it: the usual sign of wrong axes.
+
+    A car is longest along its length (common practice: length about twice
+    the width); a lone wing or panel is not, hence a warning, not an error.
+    """
+    lx, ly, lz = (float(e) for e in extent)
+    if lx >= TOL.axis_check_ratio * max(ly, lz):
+        return []
+    across = "to the side (y)" if ly >= lz else "upward (z)"
+
+    def m(x):
+        return f"{x:,.0f}" if x >= 100 else f"{x:.3g}"
+
+    return [f"the body is {m(lx)} m long along --forward {forward} but {m(max(ly, lz))} m {across}: check --forward "
+            f"and --up ({up}); ignore this for a wing or a part that is wider than it is long"]
+
+
+def _size_warnings(extent: np.ndarray, unit: str, scale: float) -> list[str]:
+    """Warn when the body's size is implausible for a vehicle, naming the likely unit."""
+    length = float(extent.max())
+    if 0.3 <= length <= 30.0:
+        return []
+    raw = length / scale
+    likely = [u for u in LENGTH_UNITS if 1.0 <= raw * length_factor(u) <= 15.0]
+    hint = f"; the file is probably in {likely[0]} (--length-unit {likely[0]})" if likely else ""
+    return [f"the body is {length:,.4g} m long with --length-unit {unit}, which is not a vehicle's size{hint}"]

@@ -1,0 +1,221 @@
+"""The main job, end to end: body + taps + field -> loads."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from .. import __version__
+from ..bodies.body import Body, load_body
+from .coefficients import ISA_RHO, dynamic_pressure
+from ..errors import InputError
+from ..fields import DEFAULT_METHOD, make_field
+from ..fields.base import Field
+from ..fields.posterior import PosteriorField
+from .integrate import force_and_moment
+from .quadrature import clustered_force_and_moment
+from ..progress import Progress
+from ..taps.projection import ProjectedTaps, project_taps
+from .results import LoadResult
+from ..taps.layout import read_taps
+from ..tolerances import TOL
+
+
+def compute_loads(
+    body: Body,
+    taps: ProjectedTaps,
+    field=None,
+    *,
+    q: float | None = None,
+    ref_area: float | None = None,
+    p_ref: float = 0.0,
+    frontal_resolution: float = TOL.frontal_resolution_m,
+    quadrature: str = "auto",
+    progress: Progress | None = None,
+) -> LoadResult:
+    """Fit a field to the taps and integrate it over the body.
+
+    Parameters
+    ----------
+    body : Body
+    taps : ProjectedTaps
+        Values in Pa (``kind == "p"``) or Cp.
+    field : Field, optional
+        Unfitted field method; default :data:`meshpress.fields.DEFAULT_METHOD`
+        (the posterior mean of the bands' surface Gaussian process).
+    q : float, optional
+        Dynamic pressure, Pa.  Needed to turn Pa into coefficients or Cp into
+        forces.
+    ref_area : float, optional
+        Reference area, m2; default the frontal area.
+    p_ref : float
+        Reference pressure subtracted everywhere, in the taps' unit (Pa or Cp).
+    frontal_resolution : float
+        Raster pixel size for the frontal area, m.
+    quadrature : {"auto", "faces", "clusters"}
+        "faces" evaluates the field on every face; "clusters" evaluates it
+        once per cluster of faces (:mod:`meshpress.loads.quadrature`, cells of
+        ``TOL.cluster_cell_m``); "auto" clusters bodies of more than
+        ``TOL.cluster_min_faces`` faces when the method can be evaluated at
+        arbitrary surface points.  ``result.face_values`` is None after
+        clustering; ``result.field`` can still give them.
+
+    Returns
+    -------
+    LoadResult
+    """
+    progress = progress or Progress(enabled=False)
+    if q is not None and not (q > 0):
+        raise InputError(f"dynamic pressure q must be positive, got {q:g} Pa")
+    if ref_area is not None and not (ref_area > 0):
+        raise InputError(f"reference area must be positive, got {ref_area:g} m2")
+    field = field or make_field()
+    if ref_area is None:
+        # The frontal-area raster needs nothing from the field: it runs on the second core meanwhile.
+        body.prefetch(frontal_resolution=frontal_resolution)
+    with progress.step(f"fitting {field.name} field"):
+        field.fit(body, taps, progress=progress)
+    F, M, values, quad = _integrate(body, field, quadrature, p_ref, progress)
+    r0 = np.zeros(3)
+    warnings = list(body.warnings) + list(field.warnings_)
+    if body.axles is None:
+        # Ground point under the body's centre: the frame origin when no axles are given.
+        warnings.append("no axle positions given: moment taken about the ground under the body's centre; "
+                        "axle figures left out")
+    if taps.kind == "p":
+        force, moment = F, M
+        per_q = (F / q, M / q) if q else (None, None)
+    else:
+        per_q = (F, M)
+        force, moment = (F * q, M * q) if q else (None, None)
+    if ref_area is None:
+        with progress.step("frontal area"):
+            ref_area = body.frontal_area(frontal_resolution)
+        area_src = f"frontal area (y-z projection rasterised at {frontal_resolution * 1000:g} mm)"
+    else:
+        area_src = "given"
+    if per_q[0] is None:
+        warnings.append("no --q or --speed given: forces in N only, coefficients left out")
+        per_q = (np.full(3, np.nan), np.full(3, np.nan))
+    tap_rows = [
+        {"name": n, "value": float(v), "distance_m": float(d), "x_m": float(p[0]), "y_m": float(p[1]),
+         "z_m": float(p[2]), "face": int(f)}
+        for n, v, d, p, f in zip(taps.names, taps.values, taps.distance, taps.points, taps.faces)
+    ]
+    return LoadResult(
+        force_N=None if force is None else force.tolist(),
+        moment_Nm=None if moment is None else moment.tolist(),
+        force_per_q_m2=per_q[0].tolist(),
+        moment_per_q_m3=per_q[1].tolist(),
+        moment_ref_m=r0.tolist(),
+        q_Pa=q,
+        ref_area_m2=float(ref_area),
+        ref_area_source=area_src,
+        wheelbase_m=None if body.axles is None else body.axles.wheelbase,
+        method=field.describe(),
+        p_ref=p_ref,
+        value_kind=taps.kind,
+        warnings=warnings,
+        taps=tap_rows,
+        mesh=body.report.to_dict() if body.report else {},
+        inputs={"mesh": body.source, "meshpress": __version__},
+        quadrature=quad,
+        face_values=values,
+        field=field,
+    )
+
+
+def _integrate(body, field, quadrature, p_ref, progress):
+    """Force and moment about the origin, face by face or by clusters; see compute_loads."""
+    if quadrature not in ("auto", "faces", "clusters"):
+        raise InputError(f"quadrature must be auto, faces or clusters, got {quadrature!r}")
+    pointwise = type(field).at_points is not Field.at_points
+    if quadrature == "clusters" and not pointwise:
+        raise InputError(f"the {field.name} method gives face values only; use quadrature='faces'")
+    if quadrature == "clusters" or (quadrature == "auto" and pointwise and body.n_faces > TOL.cluster_min_faces):
+        with progress.step("clustering faces"):
+            clusters = body.clusters(TOL.cluster_cell_m)
+        with progress.step("evaluating field"):
+            F, M = clustered_force_and_moment(clusters, field.at_points(clusters.points), np.zeros(3), p_ref)
+        return F, M, None, f"clustered midpoint rule ({len(clusters):,} clusters of {clusters.cell * 1000:g} mm)"
+    with progress.step("evaluating field"):
+        values = field.face_values(progress=progress)
+    F, M = force_and_moment(body.area_vectors, body.centroids, values, np.zeros(3), p_ref)
+    return F, M, values, "every face"
+
+
+def resolve_q(q=None, speed=None, air_density=None) -> float | None:
+    """Dynamic pressure (Pa) from ``q`` or from speed (m/s) and density (kg/m3, default ISA 1.225)."""
+    if q is not None and speed is not None:
+        raise InputError("give --q or --speed, not both")
+    if speed is not None:
+        if speed <= 0:
+            raise InputError(f"--speed must be positive, got {speed:g} m/s")
+        rho = ISA_RHO if air_density is None else air_density
+        if not rho > 0:
+            raise InputError(f"--air-density must be positive, got {rho:g} kg/m3")
+        return dynamic_pressure(rho, speed)
+    return q
+
+
+def run_loads(mesh, taps_file, *, length_unit="m", up="+z", forward="-x", front_axle=None, rear_axle=None,
+              ground=None, pressure_unit="Pa", max_tap_distance=TOL.max_tap_distance_m, method=DEFAULT_METHOD,
+              method_settings=None, q=None, ref_area=None, p_ref=0.0, progress=None) -> LoadResult:
+    """File to result: :func:`load_body`, :func:`read_taps`, :func:`project_taps`, :func:`compute_loads`.
+
+    Parameters are those of the functions named; ``max_tap_distance`` in m.
+    """
+    return run_loads_parts(**{k: v for k, v in locals().items()}).result
+
+
+@dataclass
+class LoadRun:
+    """What :func:`run_loads_parts` made on the way: for reports and views, which show more than the result."""
+
+    body: Body
+    taps: ProjectedTaps
+    field: object
+    result: LoadResult
+    bands: object = None  # UncertaintyResult, when asked for
+
+
+def run_loads_parts(mesh, taps_file, *, length_unit="m", up="+z", forward="-x", front_axle=None, rear_axle=None,
+                    ground=None, pressure_unit="Pa", max_tap_distance=TOL.max_tap_distance_m, method=DEFAULT_METHOD,
+                    method_settings=None, q=None, ref_area=None, p_ref=0.0, bands=None, progress=None) -> LoadRun:
+    """:func:`run_loads`, keeping the body, the projected taps and the fitted field.
+
+    ``bands``: None for none, True for the bands with no stated measurement error (the fit's nugget still
+    counts), or a dict of :meth:`meshpress.bands.uncertainty.Measurement.build` arguments (``sensor``, ``tap_u``,
+    ``u_p_ref``, ``u_q_rel``).  With the default method the loads are the centre of these bands (one model).
+    """
+    progress = progress or Progress(enabled=False)
+    body = load_body(mesh, length_unit=length_unit, up=up, forward=forward, front_axle=front_axle,
+                     rear_axle=rear_axle, ground=ground, progress=progress)
+    # Start the frontal area and (for big bodies) the face clusters on the second core.
+    body.prefetch(frontal_resolution=None if ref_area is not None else TOL.frontal_resolution_m,
+                  cluster_cell=TOL.cluster_cell_m if body.n_faces > TOL.cluster_min_faces else None)
+    table = read_taps(taps_file, pressure_unit=pressure_unit)
+    with progress.step("projecting taps"):
+        projected = project_taps(body, table, max_distance=max_tap_distance)
+    field = make_field(method, **(method_settings or {}))
+    meas = None
+    if bands is not None and bands is not False:
+        from ..bands.uncertainty import Measurement
+
+        meas = Measurement.build(len(projected), **({} if bands is True else bands))
+    if isinstance(field, PosteriorField):
+        # The field is the bands' model: it takes the stated tap errors as known noise, and q for the
+        # stagnation level of readings in Pa.
+        field.tap_var = None if meas is None else meas.tap_u**2
+        field.q = q if field.q is None else field.q
+    result = compute_loads(body, projected, field, q=q, ref_area=ref_area, p_ref=p_ref, progress=progress)
+    result.inputs["taps"] = str(taps_file)
+    unc = None
+    if meas is not None:
+        from ..bands.uncertainty import compute_uncertainty
+
+        with progress.step("bands"):
+            unc = compute_uncertainty(body, projected, q=q, ref_area=result.ref_area_m2, meas=meas, field=field,
+                                      progress=progress)
+    return LoadRun(body, projected, field, result, unc)

@@ -1,0 +1,70 @@
+"""The readable table printed by ``meshpress loads`` and ``meshpress demo``."""
+
+from __future__ import annotations
+
+from ..loads.results import CAUTION, LoadResult
+
+
+def _fmt(v, spec):
+    return "n/a" if v is None else format(v, spec)
+
+
+#: What a band covers, in one line (printed under every table with bands).
+BAND_SCOPE = ("the band covers the measurement errors and what the field does between the taps, under the "
+              "model's assumptions; it cannot see a feature no tap comes near")
+
+
+def _band_text(bands, name):
+    """``+/- u  [lo, hi]`` of coefficient ``name`` from an UncertaintyResult, or "" when it has none."""
+    try:
+        b = bands.band(name)
+    except KeyError:
+        return ""
+    return f" +/- {b.u:.3f}   [{b.lo95:+.3f}, {b.hi95:+.3f}]"
+
+
+def format_result(r: LoadResult, bands=None) -> str:
+    """Plain-text summary of a result: figures, inputs, mesh and warnings.
+
+    Parameters
+    ----------
+    r : LoadResult
+    bands : UncertaintyResult, optional
+        Bands of the same model as ``r`` (the default method): each
+        coefficient gets its standard uncertainty and 95 % interval on its row.
+    """
+    m = r.mesh or {}
+    lines = ["meshpress loads", ""]
+    if bands is not None:
+        lines.append(f"  {'':<29}{'':>12} {'':<4}   {'':<4}{'value':>8}{'u':>10}   95 % interval")
+    rows = [
+        ("lift (+ up)", _fmt(r.lift_N, ",.1f"), "N", "CL", _fmt(r.CL, "+.3f")),
+        ("drag (+ rearward)", _fmt(r.drag_N, ",.1f"), "N", "CD", _fmt(r.CD, "+.3f")),
+        ("side force (+ right)", _fmt(r.side_N, ",.1f"), "N", "CS", _fmt(r.CS, "+.3f")),
+        ("pitching moment (+ nose up)", _fmt(r.pitch_moment_Nm, ",.1f"), "N m", "CPM", _fmt(r.CPM, "+.3f")),
+        ("front axle lift", _fmt(r.front_lift_N, ",.1f"), "N", "CLF", _fmt(r.CLF, "+.3f")),
+        ("rear axle lift", _fmt(r.rear_lift_N, ",.1f"), "N", "CLR", _fmt(r.CLR, "+.3f")),
+    ]
+    for name, val, unit, cname, cval in rows:
+        lines.append(f"  {name:<29}{val:>12} {unit:<4}   {cname:<4}{cval:>8}"
+                     + ("" if bands is None or cval == "n/a" else _band_text(bands, cname)))
+    lines.append(f"  {'front share of lift':<29}{_fmt(None if r.front_share is None else 100 * r.front_share, '.1f'):>12} %")
+    lines.append("")
+    lines.append(f"  q {_fmt(r.q_Pa, ',.1f')} Pa   reference area {r.ref_area_m2:.3f} m2 ({r.ref_area_source})")
+    lines.append(f"  wheelbase {_fmt(r.wheelbase_m, '.3f')} m   field: {r.method}   taps: {len(r.taps)}")
+    lines.append(f"  integrated over: {r.quadrature}")
+    if r.taps:
+        far = max(r.taps, key=lambda t: t["distance_m"])
+        lines.append(f"  largest tap projection: {far['distance_m'] * 1000:.1f} mm ({far['name']})")
+    if m:
+        lines.append(
+            f"  mesh: {m['faces']:,} faces, {m['area_m2']:.2f} m2, "
+            f"{'watertight' if m['watertight'] else 'open'}, {m['holes']} holes, closure {m['closure']:.2e}"
+        )
+    if bands is not None:
+        lines.append(f"  u: standard uncertainty; 95 % interval = value +/- 1.96 u: {BAND_SCOPE}")
+    if r.warnings:
+        lines.append("")
+        lines += [f"  warning: {w}" for w in r.warnings]
+    lines += ["", f"  Caution: {CAUTION}"]
+    return "\n".join(lines)

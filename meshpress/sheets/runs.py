@@ -1,0 +1,659 @@
+"""A whole test: runs -> per-run Cp -> configurations -> comparisons -> speeds.
+
+The body is loaded and the taps are projected once; every run and every
+configuration then goes through :func:`~meshpress.loads.analysis.compute_loads` with
+:meth:`ProjectedTaps.with_values`.  Runs of one configuration are averaged tap
+by tap (equal weights), which for a linear field method is the same as
+averaging their loads; the default field is fitted once per configuration
+and each run's figures come from that fitted model, so it holds there too.
+
+Hook for the report: :func:`configuration_results` returns the per-
+configuration results (each with its :class:`LoadResult`, per-face Cp and the
+runs behind it); :attr:`TestResult.body` is the loaded body.
+
+With the default field method (the posterior of the bands' surface Gaussian
+process, :mod:`meshpress.fields.posterior`) the bands are on unless the sheet
+says ``[uncertainty] bands = false``: one carrier serves every fit, each
+configuration's loads are fitted with its taps' measurement variances, and the
+bands reuse that fit, so each figure is the centre of its band.  With another
+method they are off unless ``bands = true`` (or ``process_sheet(..., bands=True)``).
+With bands every configuration also gets its figures with a standard uncertainty from a
+kriging model along the surface (:func:`meshpress.bands.uncertainty.compute_uncertainty`),
+each tap's measurement uncertainty being the standard error of its mean over
+the runs' steady windows, and every comparison the band of its change
+(:func:`meshpress.bands.change.compute_change`).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field, replace
+from pathlib import Path
+
+import numpy as np
+
+from ..loads.analysis import compute_loads
+from ..bodies.body import load_body
+from ..errors import InputError
+from ..fields import DEFAULT_METHOD, make_field
+from ..fields.posterior import PosteriorField
+from ..progress import Progress
+from ..taps.projection import project_taps
+from ..taps.readings import Series, TapStats, pressure_coefficients, read_series, steady_window, tap_statistics
+from ..loads.results import LoadResult
+from .sheet import Run, Sheet
+from .speed import SPEED_CAUTION, speed_table
+from ..taps.layout import TapTable, read_taps
+
+WIND_BIAS_WARNING = (
+    "q comes from a speed, not from an on-board pitot-static measurement: if that speed is a ground speed, a "
+    "steady wind w along the road biases the result even when both directions are averaged, because the mean of "
+    "(V+w)^2 and (V-w)^2 is V^2 + w^2; q is then too low by 1/2 rho w^2 and the coefficients too high by the factor "
+    "1 + (w/V)^2. Measure q on board (q_column) to remove it."
+)
+
+FIGURES = ("CL", "CD", "CS", "CPM", "CLF", "CLR", "front_share", "lift_N", "drag_N", "front_lift_N", "rear_lift_N")
+DIFF_FIGURES = ("CL", "CD", "CS", "CPM", "CLF", "CLR", "front_share")
+
+
+@dataclass
+class RunReading:
+    """What a run's readings reduce to.
+
+    Attributes
+    ----------
+    cp : (k,) float
+        Mean Cp per layout tap, reference-corrected.
+    cp_stats : TapStats
+        Over the window's samples (Cp).
+    p_stats : TapStats
+        Zero-corrected readings, Pa, against the sensors' reference.
+    q_Pa : float
+        Mean dynamic pressure over the window.
+    q_std_Pa : float
+    window_s : (float, float) or None
+    samples : int
+    cp_ref : float
+        Mean Cp of the reference port applied.
+    notes : list of str
+    """
+
+    cp: np.ndarray
+    cp_stats: TapStats
+    p_stats: TapStats
+    q_Pa: float
+    q_std_Pa: float
+    window_s: tuple | None
+    samples: int
+    samples_total: int
+    cp_ref: float
+    rho: float
+    zero_Pa: np.ndarray | None
+    notes: list = field(default_factory=list)
+    #: (k,) float: standard error of each tap's zero (mean at rest), Pa; None without a zero file.
+    zero_se_Pa: np.ndarray | None = None
+
+    def tap_u(self) -> np.ndarray:
+        """(k,) float: standard uncertainty of each tap's mean Cp from the readings' spread.
+
+        The standard error of the window's mean with the lag-1 autocorrelation
+        accounted for (:func:`~meshpress.taps.readings.tap_statistics`), combined in
+        quadrature with the zero's standard error over q.  Zero where a run has
+        a single sample (no spread to estimate it from).
+        """
+        se = np.nan_to_num(np.asarray(self.cp_stats.se_ar1, float), nan=0.0)
+        if self.zero_se_Pa is not None:
+            se = np.sqrt(se**2 + (np.nan_to_num(self.zero_se_Pa, nan=0.0) / self.q_Pa) ** 2)
+        return se
+
+
+@dataclass
+class RunResult:
+    run: Run
+    reading: RunReading
+    load: LoadResult
+
+
+@dataclass
+class ConfigurationResult:
+    """One configuration: its runs, their mean, the spread between them, the loads.
+
+    Attributes
+    ----------
+    name : str
+    runs : list of RunResult
+    cp : (k,) float
+        Mean Cp per tap over the runs.
+    cp_spread : (k,) float
+        Largest minus smallest run Cp per tap (0 for one run).
+    load : LoadResult
+        The main-job result of the mean Cp at the mean q; ``face_values`` is Cp per face
+        (filled from the fitted field when the loads were summed by clusters).
+    spread : dict
+        Per figure: ``min, max, range, std`` over the runs.
+    speeds : dict or None
+        :func:`meshpress.sheets.speed.speed_table` over the sheet's speed range.
+    warnings : list of str
+    """
+
+    name: str
+    runs: list
+    cp: np.ndarray
+    cp_spread: np.ndarray
+    load: LoadResult
+    spread: dict
+    rho: float
+    speeds: dict | None = None
+    warnings: list = field(default_factory=list)
+    #: UncertaintyResult of the mean Cp (with bands), else None.
+    bands: object = None
+    #: ErrorSources of the mean Cp per tap (with bands), else None.
+    errors: object = None
+
+
+@dataclass
+class TestResult:
+    """A processed sheet.  ``changes`` holds a ChangeResult per comparison (with bands; else empty)."""
+
+    sheet: Sheet
+    body: object
+    taps: object
+    runs: list
+    configurations: dict
+    comparisons: list
+    warnings: list = field(default_factory=list)
+    changes: list = field(default_factory=list)
+    bands_seconds: float | None = None
+    carrier: object = None
+
+
+def face_values(load: LoadResult) -> np.ndarray | None:
+    """(m,) values on every face of a result: its own, or from its fitted field after clustered quadrature."""
+    if load.face_values is not None:
+        return np.asarray(load.face_values)
+    field_ = getattr(load, "field", None)
+    if field_ is None:
+        return None
+    load.face_values = np.asarray(field_.face_values())
+    return load.face_values
+
+
+def configuration_results(result: TestResult) -> dict:
+    """Hook for reports: configuration name -> :class:`ConfigurationResult`, in sheet order."""
+    return dict(result.configurations)
+
+
+def read_layout(path, exclude=()) -> TapTable:
+    """Read the tap layout: columns tap, x, y, z [, side], in the mesh's unit and axes, less ``exclude``."""
+    table = read_taps(path, values=False)
+    known = set(table.names)
+    for e in exclude:
+        if e not in known:
+            raise InputError(f"taps.exclude: {e!r} is not a tap of the layout {Path(path).name}")
+    keep = [i for i, n in enumerate(table.names) if n not in set(exclude)]
+    return TapTable([table.names[i] for i in keep], table.points[keep], table.values[keep], table.kind,
+                    [table.sides[i] for i in keep], table.source)
+
+
+def reduce_run(run: Run, series: Series, rho: float, zero: Series | None = None) -> RunReading:
+    """Reduce a run's samples to mean Cp per tap (window, zero, reference, statistics).
+
+    Parameters
+    ----------
+    run : Run
+    series : Series
+        Readings in Pa (taps in layout order).
+    rho : float
+        Air density, kg/m3 (for q from a speed).
+    zero : Series, optional
+        Readings at rest; their per-tap mean is subtracted (from q and the
+        reference channel too, when the zero file has them).
+    """
+    where = f"{run.where} ({run.name})"
+    notes = []
+    n_total = len(series)
+    zero_p = zq = zr = None
+    zero_se = None
+    if zero is not None:
+        zero_p = zero.p.mean(axis=0)
+        if len(zero) > 1:
+            zero_se = tap_statistics(zero.p).se_ar1
+        zq = None if zero.q is None else float(zero.q.mean())
+        zr = None if zero.ref is None else float(zero.ref.mean())
+    # Per-sample dynamic pressure.
+    if run.q_Pa is not None:
+        q = np.full(n_total, run.q_Pa)
+    elif run.q_column:
+        q = series.q - (zq or 0.0)
+    elif run.speed_column:
+        q = 0.5 * rho * series.speed ** 2
+    else:
+        q = np.full(n_total, 0.5 * rho * run.speed_mps ** 2)
+    window = run.window
+    mask = np.ones(n_total, bool)
+    win = None
+    if window == "auto":
+        signal = series.q if run.q_column else series.speed if run.speed_column else None
+        if signal is not None and series.time is not None:
+            if run.q_column:
+                signal = q
+            try:
+                win = steady_window(series.time, signal, band=run.steady_band_percent / 100,
+                                    min_duration=run.steady_min_s, smooth=run.steady_smooth_s)
+            except InputError as exc:
+                raise InputError(f"{where}: {exc}; give window = [start, end] in seconds") from None
+            notes.append(f"steady window found automatically on {'q' if run.q_column else 'speed'} "
+                         f"(+-{run.steady_band_percent:g} %, at least {run.steady_min_s:g} s)")
+        else:
+            notes.append("whole record used (no time and speed/q columns to find a steady window)")
+    elif isinstance(window, tuple):
+        if series.time is None:
+            raise InputError(f"{where}.window: the readings have no time column {run.time_column!r}")
+        win = window
+        notes.append("steady window given in the sheet")
+    if win is not None:
+        mask = (series.time >= win[0]) & (series.time <= win[1])
+        if mask.sum() < 1:
+            raise InputError(f"{where}.window: no samples between {win[0]:g} and {win[1]:g} s")
+    s = series.select(mask)
+    q = q[mask]
+    if np.any(q <= 0):
+        raise InputError(f"{where}: dynamic pressure is not positive in the window (check q_column and its zero)")
+    if run.reference.column:
+        cp_ref = (s.ref - (zr or 0.0)) / q
+    else:
+        cp_ref = np.full(len(q), run.reference.cp)
+    cp = pressure_coefficients(s.p, q, zero=zero_p, cp_ref=cp_ref)
+    cps = tap_statistics(cp)
+    ps = tap_statistics(s.p - (0 if zero_p is None else zero_p[None, :]))
+    if zero is None:
+        notes.append("no zero readings: offsets at rest not removed")
+    return RunReading(cp=cps.mean, cp_stats=cps, p_stats=ps, q_Pa=float(q.mean()),
+                      q_std_Pa=float(q.std(ddof=1)) if len(q) > 1 else 0.0, window_s=win, samples=int(mask.sum()),
+                      samples_total=n_total, cp_ref=float(np.mean(cp_ref)), rho=rho, zero_Pa=zero_p, notes=notes,
+                      zero_se_Pa=zero_se)
+
+
+def _read_run(run: Run, names, exclude=()) -> tuple[Series, Series | None]:
+    """Read a run's readings and zero files (excluded taps' columns are skipped)."""
+    from ..taps.tables import read_table
+
+    ignore = tuple(run.ignore_columns) + tuple(exclude)
+    kw = dict(fmt=run.format, unit=run.unit, time_column=run.time_column, q_column=run.q_column,
+              speed_column=run.speed_column, speed_unit=run.speed_unit, ref_column=run.reference.column,
+              ignore=ignore)
+    series = read_series(run.readings, names, where=f"{run.where}.readings", **kw)
+    zero = None
+    if run.zero:
+        # At rest there is no speed; q and reference channels are zeroed when the zero file has them.
+        cols = set(read_table(run.zero, "zero file").columns)
+        zkw = dict(kw, speed_column=None, ignore=ignore + ((run.speed_column,) if run.speed_column else ()))
+        for k in ("q_column", "ref_column"):
+            if zkw[k] and zkw[k] not in cols:
+                zkw[k] = None
+        zero = read_series(run.zero, names, where=f"{run.where}.zero", **zkw)
+    return series, zero
+
+
+def process_sheet(sheet: Sheet, progress: Progress | None = None, *, bands: bool | None = None) -> TestResult:
+    """Run a whole test sheet.
+
+    Parameters
+    ----------
+    sheet : Sheet
+    progress : Progress, optional
+    bands : bool, optional
+        Compute the bands of every configuration and comparison; default the
+        sheet's ``[uncertainty] bands``, and when it is not stated, on with
+        the default field method.
+
+    Returns
+    -------
+    TestResult
+    """
+    progress = progress or Progress(enabled=False)
+    v = sheet.vehicle
+    layout = read_layout(sheet.layout, sheet.exclude)
+    names = list(layout.names)
+    # Read every file first, so a mistake in the last run is reported before minutes of work.
+    prefix = f"{sheet.path.name}: "
+
+    def named(fn, *a):
+        try:
+            return fn(*a)
+        except InputError as exc:
+            msg = str(exc)
+            raise InputError(msg if msg.startswith(prefix) else prefix + msg) from None
+
+    with progress.step("reading runs"):
+        data = [(run, *named(_read_run, run, names, sheet.exclude)) for run in sheet.runs]
+    body = load_body(v.mesh, length_unit=v.length_unit, up=v.up, forward=v.forward, front_axle=v.front_axle,
+                     rear_axle=v.rear_axle, ground=v.ground, progress=progress)
+    with progress.step("projecting taps"):
+        taps = project_taps(body, layout, max_distance=sheet.max_tap_distance_m)
+    taps = replace(taps, kind="cp")
+    rho0, air_notes = sheet.air.density(f"{sheet.path.name}: air")
+    ref_area = v.reference_area_m2
+    if ref_area is None:
+        with progress.step("frontal area"):
+            ref_area = body.frontal_area()
+        area_src = "frontal area (computed)"
+    else:
+        area_src = "given in the sheet"
+
+    st = sheet.bands
+    want_bands = bands if bands is not None else (st.enabled if st.enabled is not None
+                                                   else sheet.method == DEFAULT_METHOD)
+    carrier = None
+    if sheet.method == PosteriorField.name:
+        from ..bands.patches import Carrier
+
+        with progress.step("covariance patches"):
+            carrier = Carrier(body, st.patches, progress=progress)
+
+    def loads(cp, q, tap_var=None, like=None):
+        if carrier is not None:
+            # The bands' model with the bands' settings, on the one carrier; tap_var makes it the bands' very fit.
+            fld = PosteriorField(kernel=st.kernel, orientation=st.orientation, patches=st.patches, carrier=carrier,
+                                 tap_var=tap_var, like=like, **sheet.method_settings)
+        else:
+            fld = make_field(sheet.method, **sheet.method_settings)
+        r = compute_loads(body, taps.with_values(cp), fld, q=q, ref_area=ref_area)
+        r.ref_area_source = area_src
+        r.inputs["sheet"] = str(sheet.path)
+        return r
+
+    runs = []
+    for run, series, zero in progress.track(data, len(data), "runs"):
+        rho = rho0 if run.air is None else run.air.density(f"{sheet.path.name}: {run.where}.air")[0]
+        reading = named(reduce_run, run, series, rho, zero)
+        runs.append(RunResult(run, reading, None))
+
+    configs = {}
+    for name in sheet.configurations:
+        members = [r for r in runs if r.run.configuration == name]
+        cps = np.array([r.reading.cp for r in members])
+        cp = cps.mean(axis=0)
+        q = float(np.mean([r.reading.q_Pa for r in members]))
+        rho = float(np.mean([r.reading.rho for r in members]))
+        tap_var = configuration_errors(members, st.sensor_u_Pa).measurement().tap_u ** 2 if want_bands else None
+        with progress.step(f"loads of {name}"):
+            load = loads(cp, q, tap_var)
+            for r in members:
+                # Each run through the configuration's own fitted model (the posterior mean is linear in the
+                # readings once its hyperparameters are fixed), so the runs' figures average to the configuration's.
+                r.load = loads(r.reading.cp, r.reading.q_Pa, like=load.field if carrier is not None else None)
+                r.load.inputs["readings"] = str(r.run.readings)
+        spread = {}
+        for k in FIGURES:
+            vals = [getattr(r.load, k) for r in members]
+            if any(x is None for x in vals):
+                continue
+            vals = np.array(vals, float)
+            spread[k] = {"min": float(vals.min()), "max": float(vals.max()), "range": float(np.ptp(vals)),
+                         "std": float(vals.std(ddof=1)) if len(vals) > 1 else 0.0}
+        warnings = []
+        if any(r.run.q_from_speed for r in members):
+            warnings.append(WIND_BIAS_WARNING)
+            w = wind_from_pair(members)
+            if w is not None:
+                V = math.sqrt(2 * q / rho)
+                warnings.append(f"the two runs' Cp differ as a wind of about {w:.1f} m/s along the road would make "
+                                f"them; if so the coefficients are about {100 * (w / V) ** 2:.1f} % too high")
+        if len(members) == 1:
+            warnings.append("one run only: no spread between runs, and no wind cancellation")
+        sp = None
+        if sheet.speeds_mps:
+            sp = speed_table(sheet.speeds_mps, rho, load.ref_area_m2,
+                             {"CL": load.CL, "CD": load.CD, "CLF": load.CLF, "CLR": load.CLR}, v.static_load)
+        load.warnings.extend(warnings)
+        face_values(load)
+        configs[name] = ConfigurationResult(name, members, cp, np.ptp(cps, axis=0), load, spread, rho, sp, warnings)
+    comparisons = [compare_configurations(configs[a], configs[b], names) for a, b in sheet.compare]
+    result = TestResult(sheet, body, taps, runs, configs, comparisons, list(air_notes), carrier=carrier)
+    if want_bands:
+        add_bands(result, progress)
+    return result
+
+
+def configuration_errors(members, sensor_u_Pa: float = 0.0):
+    """The measurement errors of a configuration's mean Cp per tap.
+
+    Parameters
+    ----------
+    members : list of RunResult
+        The configuration's runs (averaged with equal weights).
+    sensor_u_Pa : float
+        Standard uncertainty of each sensor, Pa.
+
+    Returns
+    -------
+    ErrorSources
+        Random part ``sqrt(sum_r u_r^2) / R`` (the runs' standard errors are
+        independent: variance of a mean of independent means); systematic part
+        ``u_sensor x mean_r(1/q_r)``: the same sensor served every run, so its
+        error is common to them and averaging does not reduce it.
+    """
+    from ..bands.change import ErrorSources
+
+    u = np.array([m.reading.tap_u() for m in members])
+    rand = np.sqrt((u**2).sum(axis=0)) / len(members)
+    sys_u = sensor_u_Pa * float(np.mean([1.0 / m.reading.q_Pa for m in members]))
+    return ErrorSources.build(u.shape[1], random_u=rand, systematic_u=sys_u)
+
+
+def add_bands(result: TestResult, progress: Progress | None = None) -> TestResult:
+    """Bands of every configuration's figures and of every comparison's change (in place).
+
+    One carrier (covariance patches) serves every fit.  Sets
+    :attr:`ConfigurationResult.bands` and ``errors``, ``result.changes`` and a
+    ``change`` object in every comparison dict, and ``result.bands_seconds``.
+    """
+    import time
+
+    from ..bands.change import compute_change
+    from ..bands.patches import Carrier
+    from ..bands.uncertainty import compute_uncertainty
+
+    progress = progress or Progress(enabled=False)
+    t0 = time.perf_counter()
+    st = result.sheet.bands
+    body, taps = result.body, result.taps
+    carrier = result.carrier
+    if carrier is None:
+        with progress.step("covariance patches"):
+            carrier = Carrier(body, st.patches, progress=progress)
+    for name, c in result.configurations.items():
+        c.errors = configuration_errors(c.runs, st.sensor_u_Pa)
+        fld = c.load.field
+        # The default field's own taps, so that its fit is recognised and reused (one model, one answer).
+        t = fld.taps_ if isinstance(fld, PosteriorField) and getattr(fld, "taps_", None) is not None \
+            else taps.with_values(c.cp)
+        with progress.step(f"bands of {name}"):
+            c.bands = compute_uncertainty(body, t, q=c.load.q_Pa, ref_area=c.load.ref_area_m2,
+                                          meas=c.errors.measurement(), carrier=carrier, field=c.load.field,
+                                          kernel=st.kernel, orientation=st.orientation, progress=progress)
+        if any(r.reading.samples < 2 for r in c.runs):
+            c.bands.notes.append("a run has a single sample: its readings' spread is unknown and taken as zero")
+    result.changes = []
+    for d in result.comparisons:
+        a, b = result.configurations[d["base"]], result.configurations[d["other"]]
+        fa, fb = face_values(a.load), face_values(b.load)
+        if isinstance(a.load.field, PosteriorField):
+            fa = fb = None  # the configurations' figures are the bands' own: no second estimate to set beside
+        with progress.step(f"band of {b.name} vs {a.name}"):
+            # q differs between configurations, so only the coefficients' change is a linear figure (q=None).
+            ch = compute_change(body, taps, a.cp, b.cp, err_base=a.errors, err_other=b.errors,
+                                correlation=st.error_correlation, q=None, ref_area=a.load.ref_area_m2,
+                                carrier=carrier, kernel=st.kernel, orientation=st.orientation, base_result=a.bands,
+                                other_result=b.bands,
+                                field_change=None if fa is None or fb is None else np.asarray(fb) - np.asarray(fa),
+                                base_label=a.name, other_label=b.name, progress=progress)
+        result.changes.append(ch)
+        d["change"] = ch.to_dict()
+    result.bands_seconds = time.perf_counter() - t0
+    return result
+
+
+def wind_from_pair(members) -> float | None:
+    """Wind along the road (m/s) that explains the Cp ratio of two opposite runs with q from speed.
+
+    With ground speed V and a wind w, run Cp scale as (V +- w)^2 / V^2, so the
+    ratio k of their mean |Cp| gives (V + w)/(V - w) = sqrt(k) [derived].
+    None unless there are exactly two runs at about the same speed.
+    """
+    if len(members) != 2 or not all(m.run.q_from_speed for m in members):
+        return None
+    a, b = members
+    Va = math.sqrt(2 * a.reading.q_Pa / a.reading.rho)
+    Vb = math.sqrt(2 * b.reading.q_Pa / b.reading.rho)
+    if abs(Va - Vb) > 0.05 * max(Va, Vb):
+        return None
+    sa, sb = np.abs(a.reading.cp).mean(), np.abs(b.reading.cp).mean()
+    if not (sa > 0 and sb > 0):
+        return None
+    r = math.sqrt(max(sa, sb) / min(sa, sb))
+    return 0.5 * (Va + Vb) * (r - 1) / (r + 1)
+
+
+def compare_configurations(a: ConfigurationResult, b: ConfigurationResult, names) -> dict:
+    """Change from configuration ``a`` (base) to ``b``: figures, per tap, per face."""
+    d = compare_loads(a.load, b.load)
+    d.update(base=a.name, other=b.name)
+    d["taps"] = [{"name": n, "cp_base": float(x), "cp_other": float(y), "delta_cp": float(y - x)}
+                 for n, x, y in zip(names, a.cp, b.cp)]
+    return d
+
+
+def compare_loads(a: LoadResult, b: LoadResult) -> dict:
+    """Figure changes (b - a) and per-face Cp change of two results on the same body."""
+    d = {"delta": {}, "base_figures": {}, "other_figures": {}}
+    for k in DIFF_FIGURES:
+        x, y = getattr(a, k), getattr(b, k)
+        d["base_figures"][k], d["other_figures"][k] = x, y
+        d["delta"][k] = None if x is None or y is None else y - x
+    fa, fb = face_values(a), face_values(b)
+    if fa is not None and fb is not None and len(fa) == len(fb):
+        dc = np.asarray(fb) - np.asarray(fa)
+        if a.value_kind == "p" and a.q_Pa and b.q_Pa:
+            dc = np.asarray(fb) / b.q_Pa - np.asarray(fa) / a.q_Pa
+        d["face_delta_cp"] = dc
+        d["faces"] = {"count": len(dc), "min_delta_cp": float(dc.min()), "max_delta_cp": float(dc.max()),
+                      "mean_abs_delta_cp": float(np.abs(dc).mean())}
+    return d
+
+
+# -- outputs ---------------------------------------------------------------------------------------
+
+def _safe(name: str) -> str:
+    import re
+
+    return re.sub(r"[^A-Za-z0-9_.-]+", "_", name).strip("._") or "unnamed"
+
+
+def run_to_dict(r: RunResult) -> dict:
+    run, rd = r.run, r.reading
+    taps = []
+    for i, n in enumerate(r.load.taps):
+        taps.append({**n, "cp_std": rd.cp_stats.std[i], "cp_se": rd.cp_stats.se[i], "cp_se_ar1": rd.cp_stats.se_ar1[i],
+                     "p_mean_Pa": rd.p_stats.mean[i], "p_std_Pa": rd.p_stats.std[i],
+                     "zero_Pa": None if rd.zero_Pa is None else rd.zero_Pa[i]})
+    d = r.load.to_dict()
+    d["taps"] = taps
+    d["run"] = {
+        "name": run.name, "configuration": run.configuration, "direction": run.direction,
+        "readings": str(run.readings), "zero": None if run.zero is None else str(run.zero),
+        "q_source": ("measured, column " + repr(run.q_column)) if run.q_column else
+                    ("given q" if run.q_Pa is not None else
+                     ("speed column " + repr(run.speed_column) if run.speed_column else "given speed")),
+        "window_s": None if rd.window_s is None else list(rd.window_s), "samples": rd.samples,
+        "samples_total": rd.samples_total, "q_mean_Pa": rd.q_Pa, "q_std_Pa": rd.q_std_Pa,
+        "air_density_kg_m3": rd.rho, "air_speed_mps": math.sqrt(2 * rd.q_Pa / rd.rho),
+        "reference": run.reference.describe(), "reference_cp_applied": rd.cp_ref, "notes": rd.notes,
+    }
+    return d
+
+
+def configuration_to_dict(c: ConfigurationResult) -> dict:
+    d = c.load.to_dict()
+    tap_cp = [{"name": n, "cp": float(x), "spread": float(s)}
+              for n, x, s in zip([t["name"] for t in c.load.taps], c.cp, c.cp_spread)]
+    if c.errors is not None:
+        for t, r, s in zip(tap_cp, c.errors.random_u, c.errors.systematic_u):
+            t.update(u_random=float(r), u_systematic=float(s))
+    d["configuration"] = {
+        "name": c.name, "runs": [r.run.name for r in c.runs], "spread_between_runs": c.spread,
+        "air_density_kg_m3": c.rho,
+        "tap_cp": tap_cp,
+        "references": sorted({r.run.reference.describe() for r in c.runs}),
+        "warnings": c.warnings,
+    }
+    if c.speeds:
+        d["speeds"] = {k: np.asarray(v).tolist() for k, v in c.speeds.items()}
+        d["speeds_caution"] = SPEED_CAUTION
+    if c.bands is not None:
+        d["uncertainty"] = c.bands.to_dict()
+    return d
+
+
+BANDS_COLUMNS = ("item", "base", "other", "figure", "value", "u", "lo95", "hi95", "measurement_u", "sampling_u",
+                 "field_value")
+
+
+def bands_csv(result: TestResult) -> str:
+    """One row per configuration figure and per change figure (kriging estimate, u, 95 % interval, budget)."""
+    import csv
+    import io
+
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    w.writerow(BANDS_COLUMNS)
+    fmt = (lambda x: "" if x is None else (f"{x:.6g}" if isinstance(x, float) else x))
+    for name, c in result.configurations.items():
+        for b in c.bands.bands:
+            w.writerow([fmt(x) for x in ("configuration", "", name, b.name, b.value, b.u, b.lo95, b.hi95,
+                                         b.u_measurement, b.u_sampling, b.field_value)])
+    for ch in result.changes:
+        for b in ch.bands:
+            w.writerow([fmt(x) for x in ("change", ch.base_label, ch.other_label, b.name, b.value, b.u, b.lo95,
+                                         b.hi95, b.u_measurement, b.u_sampling, b.field_value)])
+    return buf.getvalue()
+
+
+SUMMARY_COLUMNS = ("run", "configuration", "direction", "window_start_s", "window_end_s", "samples", "q_Pa",
+                   "q_source", "air_speed_mps", "air_density_kg_m3", "reference", "reference_cp", "CL", "CD", "CS",
+                   "CPM", "CLF", "CLR", "front_share", "lift_N", "drag_N", "front_lift_N", "rear_lift_N",
+                   "max_tap_cp_se")
+
+
+def summary_csv(result: TestResult) -> str:
+    """One row per run."""
+    import csv
+    import io
+
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    w.writerow(SUMMARY_COLUMNS)
+    for r in result.runs:
+        d = run_to_dict(r)["run"]
+        win = r.reading.window_s or (None, None)
+        row = [r.run.name, r.run.configuration, r.run.direction, win[0], win[1], r.reading.samples,
+               r.reading.q_Pa, d["q_source"], d["air_speed_mps"], r.reading.rho, d["reference"], r.reading.cp_ref]
+        row += [getattr(r.load, k) for k in ("CL", "CD", "CS", "CPM", "CLF", "CLR", "front_share", "lift_N",
+                                             "drag_N", "front_lift_N", "rear_lift_N")]
+        row.append(float(np.nanmax(r.reading.cp_stats.se)) if r.reading.samples > 1 else None)
+        w.writerow(["" if x is None else (f"{x:.6g}" if isinstance(x, float) else x) for x in row])
+    return buf.getvalue()
+
+
+def speed_csv(c: ConfigurationResult, unit: str) -> str:
+    from ..units import speed_factor
+
+    f = speed_factor(unit)
+    keys = list(c.speeds)
+    head = [f"speed_{unit.replace('/', 'p')}"] + keys
+    lines = ["# " + SPEED_CAUTION, ",".join(head)]
+    for i in range(len(c.speeds["speed_mps"])):
+        vals = [c.speeds["speed_mps"][i] / f] + [c.speeds[k][i] for k in keys]
+        lines.append(",".join(f"{x:.6g}" for x in vals))
+    return "\n".join(lines) + "\n"
