@@ -84,6 +84,11 @@ Figures.  Every load figure is a linear functional ``a^T f`` of the field, so
 its posterior is Gaussian with mean ``c^T S^-1 y`` and variance
 ``a^T K a - c^T S^-1 c`` where ``c = T K a`` and ``S = T K T^T + N`` (Bayesian
 quadrature, O'Hagan, J. Stat. Plan. Inference 29, 1991, 245-260).
+
+Size: this module is one class of about 600 lines. Its fit, its conditioning and its posterior share the
+factorised covariance and a dozen fitted attributes; split across modules they would have to reach into each
+other's state, so it is kept whole. Its correlation functions (:mod:`meshpress.bands.gpkernels`) and its trend
+(:mod:`meshpress.bands.gptrend`) are apart.
 """
 
 from __future__ import annotations

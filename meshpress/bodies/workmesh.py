@@ -8,7 +8,7 @@ a scan's triangles (millimetres), so the methods solve on a copy decimated to a
 target face count with fast-simplification (quadric edge collapse, Garland &
 Heckbert, SIGGRAPH 1997) and the field is carried back to every vertex of the
 full mesh by linear interpolation in the nearest working face.  Forces are
-always integrated on the full mesh.  ``scripts/bench_accuracy.py`` measures the
+always integrated on the full mesh.  ``benchmarks/bench_accuracy.py`` measures the
 effect on the loads (docs/accuracy.md).
 
 Quadric decimation keeps vertices where the *shape* bends and removes them
@@ -21,7 +21,7 @@ coarsest part there.  Such a method asks for a copy whose edges are all at most
 the copy's mean face area): after decimation, every longer edge is bisected
 (longest-edge bisection with conforming closure, Rivara, Int. J. Numer. Meth.
 Eng. 20 (1984) 745-756), which keeps the surface exactly and the smallest angles
-bounded.  ``scripts/bench_biharmonic_convergence.py`` measures the effect.
+bounded.  ``benchmarks/bench_biharmonic_convergence.py`` measures the effect.
 """
 
 from __future__ import annotations

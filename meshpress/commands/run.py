@@ -38,7 +38,7 @@ def result_files(result, *, plot=True) -> dict:
     """Relative path -> content of every output file of a test."""
     from .. import __version__
     from ..loads.results import CAUTION, _clean
-    from ..sheets.runs import _safe, bands_csv, configuration_to_dict, run_to_dict, speed_csv, summary_csv
+    from ..outputs.runfiles import _safe, bands_csv, configuration_to_dict, run_to_dict, speed_csv, summary_csv
     from ..sheets.speed import plot_speed_tables
 
     dump = (lambda d: json.dumps(_clean(d), indent=2) + "\n")

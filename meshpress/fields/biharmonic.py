@@ -31,7 +31,7 @@ no tap takes the trend ``a``, and leave-one-out residuals follow in closed form
 Convergence.  On the unit sphere the biharmonic minimiser has a closed form,
 Wahba's spline (:func:`meshpress.bodies.exact.sphere_spline`); the discrete field
 converges to it at second order in the edge length on uniform, lofted and
-decimated meshes (``scripts/bench_biharmonic_convergence.py``).  What spoils
+decimated meshes (``benchmarks/bench_biharmonic_convergence.py``).  What spoils
 it on real meshes is their coarsest part: the field is solved on a copy whose
 edges are at most ``max_edge_ratio`` mean edges (:mod:`meshpress.bodies.workmesh`).
 The harmonic problem has no continuum limit with point data (a point has zero
