@@ -15,7 +15,6 @@ Both writers go through a temporary file, so a file is written completely or not
 
 from __future__ import annotations
 
-import csv
 import io
 from pathlib import Path
 
@@ -24,6 +23,7 @@ import numpy as np
 from ..loads.distribution import surface_quantities
 from ..errors import InputError
 from ..loads.results import check_not_input, replace_into, write_atomic  # noqa: F401 (re-exported)
+from .csvsafe import SafeWriter
 
 VTK_SUFFIXES = (".vtp", ".vtu")
 
@@ -125,13 +125,13 @@ def tap_rows(body, taps, *, q=None, p_ref=0.0, field_at_taps=None, residuals=Non
 
 
 def tap_csv_text(rows) -> str:
-    """CSV text of :func:`tap_rows` (empty cells where a value is unknown)."""
+    """CSV text of :func:`tap_rows` (empty cells where a value is unknown, text safe from formulas)."""
     buf = io.StringIO()
-    w = csv.DictWriter(buf, fieldnames=TAP_COLUMNS, lineterminator="\n")
-    w.writeheader()
+    w = SafeWriter(buf)
+    w.writerow(TAP_COLUMNS)
     for r in rows:
-        w.writerow({k: ("" if r[k] is None else (f"{r[k]:.6g}" if isinstance(r[k], float) else r[k]))
-                    for k in TAP_COLUMNS})
+        w.writerow(["" if r[k] is None else (f"{r[k]:.6g}" if isinstance(r[k], float) else r[k])
+                    for k in TAP_COLUMNS])
     return buf.getvalue()
 
 

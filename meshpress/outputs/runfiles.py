@@ -12,6 +12,13 @@ import numpy as np
 
 from ..sheets.runs import ConfigurationResult, RunResult, TestResult
 from ..sheets.speed import SPEED_CAUTION
+from .csvsafe import SafeWriter, safe_cell
+
+
+def _cell(x):
+    """A CSV cell: empty for None, 6 significant digits for a float (text is made safe by SafeWriter)."""
+    return "" if x is None else (f"{x:.6g}" if isinstance(x, float) else x)
+
 
 def _safe(name: str) -> str:
     import re
@@ -70,21 +77,19 @@ BANDS_COLUMNS = ("item", "base", "other", "figure", "value", "u", "lo95", "hi95"
 
 def bands_csv(result: TestResult) -> str:
     """One row per configuration figure and per change figure (kriging estimate, u, 95 % interval, budget)."""
-    import csv
     import io
 
     buf = io.StringIO()
-    w = csv.writer(buf, lineterminator="\n")
+    w = SafeWriter(buf)
     w.writerow(BANDS_COLUMNS)
-    fmt = (lambda x: "" if x is None else (f"{x:.6g}" if isinstance(x, float) else x))
     for name, c in result.configurations.items():
         for b in c.bands.bands:
-            w.writerow([fmt(x) for x in ("configuration", "", name, b.name, b.value, b.u, b.lo95, b.hi95,
-                                         b.u_measurement, b.u_sampling, b.field_value)])
+            w.writerow([_cell(x) for x in ("configuration", "", name, b.name, b.value, b.u, b.lo95, b.hi95,
+                                           b.u_measurement, b.u_sampling, b.field_value)])
     for ch in result.changes:
         for b in ch.bands:
-            w.writerow([fmt(x) for x in ("change", ch.base_label, ch.other_label, b.name, b.value, b.u, b.lo95,
-                                         b.hi95, b.u_measurement, b.u_sampling, b.field_value)])
+            w.writerow([_cell(x) for x in ("change", ch.base_label, ch.other_label, b.name, b.value, b.u, b.lo95,
+                                           b.hi95, b.u_measurement, b.u_sampling, b.field_value)])
     return buf.getvalue()
 
 
@@ -96,11 +101,10 @@ SUMMARY_COLUMNS = ("run", "configuration", "direction", "window_start_s", "windo
 
 def summary_csv(result: TestResult) -> str:
     """One row per run."""
-    import csv
     import io
 
     buf = io.StringIO()
-    w = csv.writer(buf, lineterminator="\n")
+    w = SafeWriter(buf)
     w.writerow(SUMMARY_COLUMNS)
     for r in result.runs:
         d = run_to_dict(r)["run"]
@@ -110,7 +114,7 @@ def summary_csv(result: TestResult) -> str:
         row += [getattr(r.load, k) for k in ("CL", "CD", "CS", "CPM", "CLF", "CLR", "front_share", "lift_N",
                                              "drag_N", "front_lift_N", "rear_lift_N")]
         row.append(float(np.nanmax(r.reading.cp_stats.se)) if r.reading.samples > 1 else None)
-        w.writerow(["" if x is None else (f"{x:.6g}" if isinstance(x, float) else x) for x in row])
+        w.writerow([_cell(x) for x in row])
     return buf.getvalue()
 
 
@@ -120,7 +124,7 @@ def speed_csv(c: ConfigurationResult, unit: str) -> str:
     f = speed_factor(unit)
     keys = list(c.speeds)
     head = [f"speed_{unit.replace('/', 'p')}"] + keys
-    lines = ["# " + SPEED_CAUTION, ",".join(head)]
+    lines = ["# " + SPEED_CAUTION, ",".join(safe_cell(h) for h in head)]
     for i in range(len(c.speeds["speed_mps"])):
         vals = [c.speeds["speed_mps"][i] / f] + [c.speeds[k][i] for k in keys]
         lines.append(",".join(f"{x:.6g}" for x in vals))
