@@ -267,7 +267,7 @@ def test_invented_example_end_to_end():
     import sys
 
     root = Path(__file__).resolve().parent.parent
-    sys.path.insert(0, str(root / "scripts"))
+    sys.path.insert(0, str(root / "benchmarks"))
     from bench_runs import truth
 
     res = process_sheet(read_sheet(root / "examples" / "sports_car_wing" / "test.toml"))
