@@ -91,6 +91,30 @@ def figure_face_weights(body, *, kind: str = "cp", q: float | None = None, ref_a
     return out_names, np.column_stack(cols) if cols else np.zeros((body.n_faces, 0))
 
 
+def with_part_figures(body, names, G):
+    """Add each part's figures, named ``"CL[wing]"``: the whole's weights on that part's faces only.
+
+    Parameters
+    ----------
+    body : Body
+        With ``part_names`` and ``face_part``; nothing is added for one part.
+    names : list of str
+    G : (m, k) float
+
+    Returns
+    -------
+    names : list of str
+    G : (m, k * (1 + parts)) float
+    """
+    if len(body.part_names) < 2:
+        return names, G
+    cols, out = [G], list(names)
+    for i, part in enumerate(body.part_names):
+        cols.append(G * (body.face_part == i)[:, None])
+        out += [f"{n}[{part}]" for n in names]
+    return out, np.hstack(cols)
+
+
 def rbf_tap_weights(field, face_weights, *, chunk: int = 20_000) -> np.ndarray:
     """Tap weights of each figure for a fitted :class:`~meshpress.fields.rbf.RBFField`, analytically.
 
@@ -242,7 +266,8 @@ def measurement_var(W, meas: Measurement, closure=None) -> np.ndarray:
 def q_var(values, names, kind, u_q_rel) -> np.ndarray:
     """(k,) float: variance from q's relative uncertainty for the figures that scale with 1/q or q."""
     values = np.asarray(values, float)
-    scales = np.array([(n not in _NEWTON) if kind == "p" else (n in _NEWTON) for n in names], float)
+    base = [n.split("[", 1)[0] for n in names]  # a part's figure "CL[wing]" scales as "CL"
+    scales = np.array([(n not in _NEWTON) if kind == "p" else (n in _NEWTON) for n in base], float)
     return (values * u_q_rel * scales) ** 2
 
 
@@ -370,16 +395,30 @@ class UncertaintyResult:
         """JSON form: ``NAME``, ``NAME_u``, ``NAME_lo95``, ``NAME_hi95`` per figure, and the budget."""
         d = {}
         for b in self.bands:
+            if "[" in b.name:
+                continue  # a part's figure: given with its part (part_dict)
             d[b.name] = b.value
             d[f"{b.name}_u"] = b.u
             d[f"{b.name}_lo95"] = b.lo95
             d[f"{b.name}_hi95"] = b.hi95
         d["uncertainty_budget"] = {b.name: {"measurement_u": b.u_measurement, "sampling_u": b.u_sampling,
-                                            "q_u": b.u_q, "field_value": b.field_value} for b in self.bands}
+                                            "q_u": b.u_q, "field_value": b.field_value} for b in self.bands
+                                   if "[" not in b.name}
         d["uncertainty_model"] = self.model
         d["uncertainty_coverage"] = "95 % interval = value +/- 1.96 u (normal)"
         d["uncertainty_notes"] = list(self.notes)
         return d
+
+
+def part_bands_dict(result: UncertaintyResult, part: str) -> dict:
+    """One part's bands as ``NAME``, ``NAME_u``, ``NAME_lo95``, ``NAME_hi95`` (figures ``NAME[part]``)."""
+    d = {}
+    tag = f"[{part}]"
+    for b in result.bands:
+        if b.name.endswith(tag):
+            k = b.name[: -len(tag)]
+            d.update({k: b.value, f"{k}_u": b.u, f"{k}_lo95": b.lo95, f"{k}_hi95": b.hi95})
+    return d
 
 
 def report_numbers(result: UncertaintyResult, figure: str = "CL") -> dict:
@@ -476,6 +515,7 @@ def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | Non
         raise InputError(f"{len(meas.tap_u)} tap uncertainties for {n} taps")
     wb = body.axles.wheelbase if body.axles is not None else None
     names, G = figure_face_weights(body, kind=taps.kind, q=q, ref_area=ref_area, wheelbase=wb)
+    names, G = with_part_figures(body, names, G)
     if _same_model(field, body, taps, meas):
         # The default field is this very model: reuse its fit, so the loads' figure is the band's centre.
         gp, carrier, groups, B = field.gp_, field.carrier_, field.groups_, field.face_matrix_

@@ -20,7 +20,7 @@ from ..errors import InputError
 from .frame import FrameMap, rotation
 from .grouping import group
 from ..progress import Progress
-from .readers import read_surface
+from .readers import read_parts, unique_names
 from ..tolerances import TOL
 from ..units import LENGTH_UNITS, length_factor
 
@@ -64,6 +64,10 @@ class Body:
         Doubts found while loading.
     source : str, optional
         The file the body came from.
+    part_names : list of str, optional
+        Names of the body's parts (default one part, ``"body"``).
+    face_part : (m,) int, optional
+        Index into ``part_names`` of every face's part.
 
     Attributes
     ----------
@@ -73,9 +77,15 @@ class Body:
         the surface).
     """
 
-    def __init__(self, vertices, faces, *, frame=None, axles=None, report=None, warnings=None, source=None):
+    def __init__(self, vertices, faces, *, frame=None, axles=None, report=None, warnings=None, source=None,
+                 part_names=None, face_part=None):
         self.vertices = _readonly(np.ascontiguousarray(vertices, dtype=float))
         self.faces = _readonly(np.ascontiguousarray(faces, dtype=np.int64))
+        self.part_names = list(part_names) if part_names is not None else ["body"]
+        fp = np.zeros(len(self.faces), dtype=np.int64) if face_part is None else np.asarray(face_part, np.int64)
+        if fp.shape != (len(self.faces),) or (len(fp) and not 0 <= fp.min() <= fp.max() < len(self.part_names)):
+            raise ValueError("face_part needs one index into part_names per face")
+        self.face_part = _readonly(fp)
         self.frame = frame
         self.axles = axles
         self.report = report
@@ -245,6 +255,8 @@ def load_body(
     front_axle: float | None = None,
     rear_axle: float | None = None,
     ground: float | None = None,
+    parts=None,
+    split_shells: bool = True,
     progress: Progress | None = None,
 ) -> Body:
     """Read a surface mesh and bring it into the vehicle frame.
@@ -263,6 +275,12 @@ def load_body(
     ground : float, optional
         Ground height on the mesh's up axis, in the mesh's unit; default: the
         body's lowest point.
+    parts : dict or sequence of (name, path), optional
+        More parts from other files, in the same unit and axes as ``path``.
+    split_shells : bool
+        When the main file is one surface (an STL), make each connected shell
+        a part of its own, named by where it sits (:func:`name_shells`).  A
+        scene's parts are kept as the scene names them either way.
     progress : Progress, optional
         Progress display.
 
@@ -276,9 +294,19 @@ def load_body(
     scale = length_factor(length_unit, "--length-unit: ")
     R = rotation(up, forward)
     with progress.step("reading mesh"):
-        v, f, parts = read_surface(path)
+        v, f, face_part, names = read_parts(path)
+        file_parts = len(names)
+        for name, extra in (parts.items() if isinstance(parts, dict) else (parts or ())):
+            ve, fe, _, _ = read_parts(extra)
+            f = np.vstack([f, fe + len(v)])
+            v = np.vstack([v, ve])
+            face_part = np.concatenate([face_part, np.full(len(fe), len(names), dtype=np.int64)])
+            names = names + [str(name)]
+        if len(set(names)) != len(names):
+            raise InputError(f"part names must differ: {', '.join(names)}")
     with progress.step("cleaning mesh"):
-        v, f, av, merged, dropped = _clean(v, f)
+        v, f, av, merged, dropped, kept = _clean(v, f)
+        face_part = face_part[kept]
     p = scale * v @ R.T
     # Origin: ground (lowest point or given), mid-wheelbase (or mid-length), mid-track.
     frame = FrameMap(R, scale, np.zeros(3))
@@ -328,7 +356,18 @@ def load_body(
         rev = total_flip[bface]
         boundary = boundary.copy()
         boundary[rev] = boundary[rev][:, ::-1]
-    body = Body(p, f, frame=frame, axles=axles, source=str(path))
+    if split_shells and file_parts == 1:
+        # One surface in the main file: each connected shell is a part of its own (a wing, a mirror, a wheel),
+        # named by where it sits on the car; parts given with --part keep their names.
+        main = face_part == 0
+        shell_names, shell_of = name_shells(part[main], av[main], centroids[main], p.min(axis=0), p.max(axis=0),
+                                            main_name=names[0])
+        if len(shell_names) > 1:
+            lab = np.empty(len(f), dtype=np.int64)
+            lab[main] = shell_of
+            lab[~main] = face_part[~main] - 1 + len(shell_names)
+            face_part, names = lab, shell_names + names[1:]
+    body = Body(p, f, frame=frame, axles=axles, source=str(path), part_names=names, face_part=face_part)
     body._seed(triangles=tri, centroids=centroids, area_vectors=av)
     with progress.step("checking mesh"):
         holes = boundary_loops(boundary, p)
@@ -341,7 +380,7 @@ def load_body(
         report = MeshReport(
             faces=len(f),
             vertices=len(p),
-            parts=parts,
+            parts=len(names),
             components=int(part.max() + 1),
             merged_vertices=merged,
             dropped_faces=dropped,
@@ -355,6 +394,9 @@ def load_body(
             closure=closure,
             orientable=orientable,
             volume_m3=body.volume() if watertight else None,
+            part_list=[{"name": n, "faces": int(c), "area_m2": float(a)} for n, c, a in
+                       zip(names, np.bincount(body.face_part, minlength=len(names)),
+                           np.bincount(body.face_part, body.face_areas, minlength=len(names)))],
         )
     setup = _size_warnings(bmax - bmin, length_unit, scale) + _axis_warnings(bmax - bmin, up, forward)
     warnings += setup
@@ -370,6 +412,70 @@ def load_body(
     body.warnings = warnings
     body.setup_warnings = setup
     return body
+
+
+def name_shells(component, area_vectors, centroids, lo, hi, *, main_name="body", min_share=0.002):
+    """Parts from connected shells, each named by where it sits on the car.
+
+    The largest shell by area keeps ``main_name``.  The others are named by
+    their area-weighted centre in the body's bounding box ``lo``..``hi``
+    (vehicle frame: x rearward, y right, z up): front / middle / rear by
+    thirds of the length, left / right when off the centre plane by more than
+    a sixth of the half width, low / high by the lower and upper third of the
+    height, e.g. ``"rear high"`` for a rear wing, ``"front left low"`` for a
+    wheel.  Shells under ``min_share`` of the total area (scan specks) go
+    together as ``"small shells"``.
+
+    Parameters
+    ----------
+    component : (m,) int
+        Connected shell of every face.
+    area_vectors, centroids : (m, 3) float
+    lo, hi : (3,) float
+        Bounding box, m.
+
+    Returns
+    -------
+    names : list of str
+    shell_of : (m,) int
+        Index into ``names`` of every face.
+    """
+    area = np.linalg.norm(area_vectors, axis=1)
+    comps, inv = np.unique(component, return_inverse=True)
+    a = np.bincount(inv, area, len(comps))
+    if len(comps) == 1:
+        return [main_name], np.zeros(len(component), dtype=np.int64)
+    c = np.stack([np.bincount(inv, area * centroids[:, k], len(comps)) for k in range(3)], axis=1) / a[:, None]
+    span = np.maximum(hi - lo, 1e-12)
+    rel = (c - lo) / span
+    small = a < min_share * a.sum()
+    order = np.argsort(-a)
+    labels = {}
+    raw = []
+    for rank, k in enumerate(order):
+        if rank == 0:
+            raw.append(main_name)
+        elif small[k]:
+            continue
+        else:
+            x, y, z = rel[k]
+            words = ["front" if x < 1 / 3 else "rear" if x > 2 / 3 else "middle"]
+            if abs(y - 0.5) > 1 / 12:
+                words.append("right" if y > 0.5 else "left")
+            if z < 1 / 3:
+                words.append("low")
+            elif z > 2 / 3:
+                words.append("high")
+            raw.append(" ".join(words))
+        labels[k] = len(raw) - 1
+    names = unique_names(raw)
+    if small[order[1:]].any():
+        names.append("small shells")
+        for k in np.flatnonzero(small):
+            if k != order[0]:
+                labels[k] = len(names) - 1
+    lut = np.array([labels[k] for k in range(len(comps))], dtype=np.int64)
+    return names, lut[inv]
 
 
 def parse_up_point(up: str, value: float) -> np.ndarray:
@@ -392,6 +498,8 @@ def _clean(v: np.ndarray, f: np.ndarray):
         Vertices removed by merging.
     dropped : int
         Faces dropped.
+    kept : (m,) int
+        Index of each kept face among the input faces.
     """
     n0, m0 = len(v), len(f)
     if f.min() < 0 or f.max() >= n0:
@@ -430,7 +538,8 @@ def _clean(v: np.ndarray, f: np.ndarray):
     used[f.ravel()] = True
     remap = np.cumsum(used) - 1
     v, f = v[used], remap[f]
-    return v, f, 0.5 * cr, merged, m0 - len(f)
+    kept = np.flatnonzero(keep)[uniq]
+    return v, f, 0.5 * cr, merged, m0 - len(f), kept
 
 
 def _axis_warnings(extent: np.ndarray, up: str, forward: str) -> list[str]:

@@ -18,7 +18,8 @@ class MeshReport:
     faces, vertices : int
         Counts after cleaning.
     parts : int
-        Parts in the file (scene geometries / cell blocks).
+        Parts of the body: a scene's parts, the parts given with ``--part``,
+        or the connected shells of a one-surface file.
     components : int
         Connected surface pieces after cleaning.
     merged_vertices, dropped_faces, flipped_faces : int
@@ -42,6 +43,8 @@ class MeshReport:
         False when some piece could not be wound consistently.
     volume_m3 : float or None
         Enclosed volume when watertight.
+    part_list : list of dict
+        Each part's ``name``, ``faces`` and ``area_m2``.
     """
 
     faces: int
@@ -60,6 +63,7 @@ class MeshReport:
     closure: float = 0.0
     orientable: bool = True
     volume_m3: float | None = None
+    part_list: list = field(default_factory=list)
 
     def to_dict(self) -> dict:
         return asdict(self)

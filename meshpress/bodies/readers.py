@@ -1,8 +1,10 @@
 """Reading surface meshes from files into plain arrays.
 
-trimesh reads STL, OBJ, PLY, OFF and GLB/GLTF (a scene of several parts is
-concatenated into one body); meshio reads VTK/VTU/VTP and its other formats.
-Only triangles and quads are kept (quads are split in two).
+trimesh reads STL, OBJ, PLY, OFF, 3MF and GLB/GLTF; meshio reads VTK/VTU/VTP
+and its other formats.  Only triangles and quads are kept (quads are split in
+two).  A scene keeps its parts: every face carries the index of its part, and
+the parts their names (the scene's node names, with each node's transform
+applied; meshio's cell blocks are parts only when cell sets name them).
 """
 
 from __future__ import annotations
@@ -13,11 +15,27 @@ import numpy as np
 
 from ..errors import InputError
 
-TRIMESH_SUFFIXES = {".stl", ".obj", ".ply", ".off", ".glb", ".gltf"}
+TRIMESH_SUFFIXES = {".stl", ".obj", ".ply", ".off", ".glb", ".gltf", ".3mf"}
 
 
 def read_surface(path: str | Path) -> tuple[np.ndarray, np.ndarray, int]:
-    """Read a surface mesh file.
+    """Read a surface mesh file as one surface.
+
+    Returns
+    -------
+    vertices : (n, 3) float
+        Vertex coordinates in the file's own axes and unit.
+    faces : (m, 3) int
+        Triangles as vertex indices (not yet cleaned).
+    parts : int
+        Number of parts (scene geometries or cell blocks) in the file.
+    """
+    v, f, _, names = read_parts(path)
+    return v, f, len(names)
+
+
+def read_parts(path: str | Path) -> tuple[np.ndarray, np.ndarray, np.ndarray, list]:
+    """Read a surface mesh file, keeping its parts.
 
     Parameters
     ----------
@@ -27,11 +45,13 @@ def read_surface(path: str | Path) -> tuple[np.ndarray, np.ndarray, int]:
     Returns
     -------
     vertices : (n, 3) float
-        Vertex coordinates in the file's own axes and unit.
+        Vertex coordinates in the file's own axes and unit (scene transforms applied).
     faces : (m, 3) int
         Triangles as vertex indices (not yet cleaned).
-    parts : int
-        Number of parts (scene geometries or cell blocks) merged into one body.
+    face_part : (m,) int
+        Index into ``names`` of each face's part.
+    names : list of str
+        Part names, unique; one name (the file's stem) for a file of one part.
 
     Raises
     ------
@@ -43,14 +63,34 @@ def read_surface(path: str | Path) -> tuple[np.ndarray, np.ndarray, int]:
         raise InputError(f"mesh file {str(path)!r} does not exist")
     suffix = path.suffix.lower()
     if suffix in TRIMESH_SUFFIXES:
-        v, f, parts = _read_trimesh(path)
+        pieces = _read_trimesh(path)
     else:
-        v, f, parts = _read_meshio(path)
+        pieces = _read_meshio(path)
+    names = unique_names([n for n, _, _ in pieces])
+    vs, fs, labels, off = [], [], [], 0
+    for i, (_, v, f) in enumerate(pieces):
+        vs.append(v)
+        fs.append(f + off)
+        labels.append(np.full(len(f), i, dtype=np.int64))
+        off += len(v)
+    v = np.vstack(vs) if vs else np.zeros((0, 3))
+    f = np.vstack(fs) if fs else np.zeros((0, 3), dtype=np.int64)
     if len(f) == 0:
         raise InputError(f"mesh file {str(path)!r} holds no triangles or quads")
     if not np.all(np.isfinite(v)):
         raise InputError(f"mesh file {str(path)!r} has vertices that are NaN or infinite")
-    return v, f, parts
+    return v, f, np.concatenate(labels), names
+
+
+def unique_names(names) -> list:
+    """The names, with `` 2``, `` 3``... appended to repeats so that every one is unique."""
+    out, seen = [], {}
+    for n in names:
+        n = str(n).strip() or "part"
+        k = seen.get(n, 0) + 1
+        seen[n] = k
+        out.append(n if k == 1 else f"{n} {k}")
+    return out
 
 
 def _read_trimesh(path: Path):
@@ -61,16 +101,20 @@ def _read_trimesh(path: Path):
     except Exception as exc:  # trimesh raises many types for bad files
         raise InputError(f"mesh file {str(path)!r} could not be read as {path.suffix}: {_short(exc)}") from None
     if isinstance(loaded, trimesh.Scene):
-        geoms = [g for g in loaded.dump() if isinstance(g, trimesh.Trimesh)]
-        if not geoms:
+        pieces = []
+        for node in loaded.graph.nodes_geometry:
+            transform, geom_name = loaded.graph[node]
+            g = loaded.geometry.get(geom_name)
+            if not isinstance(g, trimesh.Trimesh) or len(g.faces) == 0:
+                continue
+            v = trimesh.transform_points(np.asarray(g.vertices, dtype=float), transform)
+            pieces.append((str(node), v, np.asarray(g.faces, dtype=np.int64)))
+        if not pieces:
             raise InputError(f"mesh file {str(path)!r} is a scene with no surface parts")
-        parts = len(geoms)
-        mesh = trimesh.util.concatenate(geoms)
-    elif isinstance(loaded, trimesh.Trimesh):
-        parts, mesh = 1, loaded
-    else:
-        raise InputError(f"mesh file {str(path)!r} holds no surface (found {type(loaded).__name__})")
-    return np.asarray(mesh.vertices, dtype=float), np.asarray(mesh.faces, dtype=np.int64), parts
+        return pieces
+    if isinstance(loaded, trimesh.Trimesh):
+        return [(path.stem, np.asarray(loaded.vertices, dtype=float), np.asarray(loaded.faces, dtype=np.int64))]
+    raise InputError(f"mesh file {str(path)!r} holds no surface (found {type(loaded).__name__})")
 
 
 def _read_meshio(path: Path):
@@ -80,20 +124,34 @@ def _read_meshio(path: Path):
         m = meshio.read(str(path))
     except Exception as exc:
         raise InputError(f"mesh file {str(path)!r} could not be read: {_short(exc)}") from None
-    faces, parts = [], 0
-    for block in m.cells:
+    pts = np.asarray(m.points, dtype=float)[:, :3]
+    block_name = {}
+    for set_name, blocks in (m.cell_sets or {}).items():
+        for i, ids in enumerate(blocks):
+            if ids is not None and len(ids) == len(m.cells[i].data):  # a set that is the whole block names it
+                block_name.setdefault(i, set_name)
+    pieces, k = [], 0
+    for i, block in enumerate(m.cells):
         data = np.asarray(block.data, dtype=np.int64)
         if block.type == "triangle":
-            faces.append(data)
+            f = data
         elif block.type == "quad":
-            faces.append(data[:, [0, 1, 2]])
-            faces.append(data[:, [0, 2, 3]])
+            f = np.vstack([data[:, [0, 1, 2]], data[:, [0, 2, 3]]])
         else:
             continue
-        parts += 1
-    if not faces:
+        k += 1
+        pieces.append((block_name.get(i), None, f))
+    if not pieces:
         raise InputError(f"mesh file {str(path)!r} holds no triangles or quads")
-    return np.asarray(m.points, dtype=float)[:, :3], np.vstack(faces), parts
+    if len(pieces) == 1 or any(n is None for n, _, _ in pieces):
+        # Unnamed blocks are element types of one surface (triangles and quads), not parts.
+        return [(path.stem, pts, np.vstack([f for _, _, f in pieces]))]
+    # Blocks share the one point array: give each its own copy of the points it uses, so parts stay apart.
+    out = []
+    for name, _, f in pieces:
+        used, inv = np.unique(f, return_inverse=True)
+        out.append((name, pts[used], inv.reshape(f.shape)))
+    return out
 
 
 def _short(exc: Exception) -> str:

@@ -2,6 +2,10 @@
 
 A region specification is a string of parts joined by ``;``, each one of:
 
+- ``parts``: the body's parts (a scene's parts, ``--part`` files, separate
+  shells), so that no field interpolates across the gap between a wing and
+  the deck below it; ``meshpress loads`` adds it whenever a body has more than
+  one part, unless told ``--merge-parts``;
 - ``normal``: split by the sign of the face normal's vertical component
   (upper faces vs lower faces: roof vs underbody, a wing's upper vs lower face);
 - ``edges`` or ``edges:ANGLE``: split along sharp edges, where the normals of
@@ -55,6 +59,8 @@ def _part_labels(body, part: str):
     c = body.centroids
     if part == "normal":
         return np.where(body.face_normals[:, 2] >= 0, "upper", "lower").astype(object)
+    if part == "parts":
+        return np.asarray(body.part_names, dtype=object)[body.face_part]
     if part.startswith("edges"):
         angle = 60.0
         if ":" in part:
@@ -89,7 +95,7 @@ def _part_labels(body, part: str):
             raise InputError(f"{path}: {len(labels)} labels for {body.n_faces} faces; the label file needs one "
                              "label per face of the mesh as loaded, in face order")
         return np.array(labels, dtype=object)
-    raise InputError(f"--regions: {part!r} is not 'normal', 'edges[:ANGLE]', 'x=V', 'y=V', 'z=V', "
+    raise InputError(f"--regions: {part!r} is not 'parts', 'normal', 'edges[:ANGLE]', 'x=V', 'y=V', 'z=V', "
                      "'box=X0,X1,Y0,Y1,Z0,Z1' or an existing label file")
 
 
@@ -126,4 +132,17 @@ def sub_body(body, face_mask):
     remap = np.cumsum(used) - 1
     new_face = np.full(body.n_faces, -1, dtype=np.int64)
     new_face[np.flatnonzero(face_mask)] = np.arange(int(face_mask.sum()))
-    return Body(body.vertices[used], remap[f], axles=body.axles), new_face
+    return (Body(body.vertices[used], remap[f], axles=body.axles, part_names=body.part_names,
+                 face_part=body.face_part[face_mask]), new_face)
+
+
+def with_parts(body, spec):
+    """The region specification that also keeps the body's parts apart (``spec`` unchanged for one part)."""
+    if len(body.part_names) < 2:
+        return spec
+    if spec is None:
+        return "parts"
+    if isinstance(spec, str):
+        return spec if "parts" in [t.strip() for t in spec.split(";")] else "parts;" + spec
+    return np.array([f"{a} / {b}" for a, b in zip(np.asarray(body.part_names, dtype=object)[body.face_part], spec)],
+                    dtype=object)

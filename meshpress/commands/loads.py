@@ -4,7 +4,8 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from .options import add_body_options, add_field_options, add_flow_options, max_distance_m, method_settings, speed_mps
+from .options import (add_body_options, add_field_options, add_flow_options, max_distance_m, method_settings,
+                      parse_parts, speed_mps)
 
 
 def add_parser(sub):
@@ -48,7 +49,7 @@ def run(args) -> int:
         pressure_unit=args.pressure_unit, max_tap_distance=max_distance_m(args.max_tap_distance, args.length_unit),
         method=args.method, method_settings=method_settings(args), q=q, ref_area=args.ref_area,
         p_ref=args.p_ref, bands=None if args.no_bands else bands_measurement(args.sensor_accuracy),
-        progress=progress,
+        parts=parse_parts(args.part), merge_parts=args.merge_parts, progress=progress,
     )
     print(format_loads(run))
     extra = {} if run.bands is None else {"uncertainty": run.bands.to_dict()}

@@ -20,6 +20,25 @@ def add_body_options(p):
                    help="rear axle coordinate on the mesh's forward axis, mesh unit")
     g.add_argument("--ground", type=float, metavar="H",
                    help="ground height on the mesh's up axis, mesh unit (default: lowest point)")
+    g.add_argument("--part", action="append", default=[], metavar="NAME=FILE",
+                   help="add a part from another mesh file in the same unit and axes (repeatable), e.g. "
+                        "--part wing=wing.stl; its loads are given on their own row")
+    g.add_argument("--merge-parts", action="store_true",
+                   help="fit one field across all parts (by default no field crosses from one part to another)")
+
+
+def parse_parts(values) -> list:
+    """``--part NAME=FILE`` values -> [(name, path)], with one-line errors."""
+    out = []
+    for v in values or ():
+        name, sep, path = v.partition("=")
+        if not sep or not name.strip() or not path.strip():
+            raise InputError(f"--part {v!r}: write NAME=FILE, e.g. --part wing=wing.stl")
+        out.append((name.strip(), path.strip()))
+    names = [n for n, _ in out]
+    if len(set(names)) != len(names):
+        raise InputError(f"--part: each part needs its own name (got {', '.join(names)})")
+    return out
 
 
 def add_flow_options(p):

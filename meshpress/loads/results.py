@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import json
 import math
 import os
@@ -47,6 +48,8 @@ class LoadResult:
     face_values: np.ndarray | None = field(default=None, repr=False)
     #: The fitted field method (for views that need face values after clustered quadrature).
     field: object = field(default=None, repr=False)
+    #: Loads of each part of a body of several parts: :class:`PartLoads`, in the body's part order.
+    parts: list = dataclasses.field(default_factory=list)  # (the name 'field' is taken just above)
 
     # Figures derived from the vectors above -------------------------------------------------
     def _f(self, k):
@@ -146,6 +149,49 @@ class LoadResult:
             mesh=self.mesh,
             inputs=self.inputs,
         )
+        if self.parts:
+            d["parts"] = [p.to_dict() for p in self.parts]
+        return _clean(d)
+
+    def figures_dict(self) -> dict:
+        """The figures only (N, N m, coefficients; None where they cannot be computed), with the vectors."""
+        d = {k: _clean(getattr(self, k)) for k in self.FIGURES}
+        d.update(downforce_N=None if self.lift_N is None else -self.lift_N, force_N=self.force_N,
+                 moment_Nm=self.moment_Nm)
+        return _clean(d)
+
+
+@dataclass
+class PartLoads:
+    """One part's share of the loads: the same figures as the whole, on the same q, reference area and point.
+
+    Attributes
+    ----------
+    name : str
+    faces : int
+    area_m2 : float
+    loads : LoadResult
+        The figures of this part's faces alone (so the parts' forces and
+        moments sum to the whole's).
+    taps : int
+        Taps on the part.
+    bands : dict, optional
+        The part's bands, from the same model as the whole's.
+    """
+
+    name: str
+    faces: int
+    area_m2: float
+    loads: LoadResult
+    taps: int = 0
+    #: The part's bands (``CL``, ``CL_u``, ``CL_lo95``, ``CL_hi95``, ...) when the loads have bands.
+    bands: dict | None = None
+
+    def to_dict(self) -> dict:
+        d = {"name": self.name, "faces": self.faces, "area_m2": self.area_m2, "taps": self.taps,
+             **self.loads.figures_dict()}
+        if self.bands:
+            d["uncertainty"] = self.bands
         return _clean(d)
 
 

@@ -49,6 +49,8 @@ def format_result(r: LoadResult, bands=None) -> str:
         lines.append(f"  {name:<29}{val:>12} {unit:<4}   {cname:<4}{cval:>8}"
                      + ("" if bands is None or cval == "n/a" else _band_text(bands, cname)))
     lines.append(f"  {'front share of lift':<29}{_fmt(None if r.front_share is None else 100 * r.front_share, '.1f'):>12} %")
+    if r.parts:
+        lines += [""] + format_parts(r, bands)
     lines.append("")
     lines.append(f"  q {_fmt(r.q_Pa, ',.1f')} Pa   reference area {r.ref_area_m2:.3f} m2 ({r.ref_area_source})")
     lines.append(f"  wheelbase {_fmt(r.wheelbase_m, '.3f')} m   field: {r.method}   taps: {len(r.taps)}")
@@ -68,3 +70,22 @@ def format_result(r: LoadResult, bands=None) -> str:
         lines += [f"  warning: {w}" for w in r.warnings]
     lines += ["", f"  Caution: {CAUTION}"]
     return "\n".join(lines)
+
+
+def format_parts(r: LoadResult, bands=None) -> list:
+    """Lines: one row per part (faces, taps, lift, drag, CL, CD, CLF, CLR; with bands u of CL), then the sum."""
+    head = (f"  {'part':<22}{'faces':>9}{'taps':>6}{'lift N':>10}{'drag N':>9}{'CL':>8}{'CD':>8}{'CLF':>8}"
+            f"{'CLR':>8}" + (f"{'u(CL)':>8}" if bands is not None else ""))
+    out = [head]
+    for p in r.parts:
+        L = p.loads
+        u = ""
+        if bands is not None:
+            try:
+                u = f"{bands.band(f'CL[{p.name}]').u:>8.3f}"
+            except KeyError:
+                u = f"{'n/a':>8}"
+        out.append(f"  {p.name[:21]:<22}{p.faces:>9,}{p.taps:>6}{_fmt(L.lift_N, ',.1f'):>10}{_fmt(L.drag_N, ',.1f'):>9}"
+                   f"{_fmt(L.CL, '+.3f'):>8}{_fmt(L.CD, '+.3f'):>8}{_fmt(L.CLF, '+.3f'):>8}{_fmt(L.CLR, '+.3f'):>8}" + u)
+    out.append(f"  {'(sum of the parts = the whole; no field crosses from one part to another)':<22}")
+    return out

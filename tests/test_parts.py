@@ -1,0 +1,165 @@
+"""Bodies of several parts: scene parts and separate shells, loads per part, fields kept apart.
+
+Truths: the divergence theorem (a uniform pressure gives no force on a closed part), Archimedes' principle (a
+hydrostatic pressure gives each closed part a lift of rho g V, V from trimesh's mesh volume, a reference
+library), d'Alembert's paradox for a sphere in potential flow (Cp = 1 - 9/4 sin^2 theta, Batchelor 1967 sec.
+6.8: no force), and linearity of the integral (the parts sum to the whole).
+"""
+
+from __future__ import annotations
+
+import json
+
+import numpy as np
+import pytest
+import trimesh
+
+import meshpress as mp
+from meshpress.bodies import exact
+
+from conftest import write_taps
+
+BIG = dict(radius=1.0, center=(0.0, 0.0, 1.2))
+SMALL = dict(radius=0.3, center=(3.0, 0.0, 2.0))  # behind and above: a "rear wing" of the invented test scene
+
+
+def _sphere(radius, center, subdivisions):
+    m = trimesh.creation.icosphere(subdivisions=subdivisions, radius=radius)
+    m.apply_translation(center)
+    return m
+
+
+def _scene_file(tmp_path, suffix=".glb"):
+    big, small = _sphere(**BIG, subdivisions=4), _sphere(**SMALL, subdivisions=3)
+    sc = trimesh.Scene()
+    sc.add_geometry(big, node_name="body", geom_name="g_body")
+    sc.add_geometry(small, node_name="rear wing", geom_name="g_wing")
+    path = tmp_path / f"scene{suffix}"
+    sc.export(str(path))
+    return path, big, small
+
+
+def _spread(n, radius, center, seed):
+    rng = np.random.default_rng(seed)
+    u = rng.normal(size=(n, 3))
+    u /= np.linalg.norm(u, axis=1, keepdims=True)
+    return u, u * radius + np.asarray(center)
+
+
+def _taps(tmp_path, cp_of, n_big=60, n_small=25):
+    ub, pb = _spread(n_big, **BIG, seed=1)
+    us, ps = _spread(n_small, **SMALL, seed=2)
+    pts = np.vstack([pb, ps])
+    vals = np.concatenate([cp_of(ub, pb), cp_of(us, ps)])
+    names = [f"B{i}" for i in range(n_big)] + [f"W{i}" for i in range(n_small)]
+    return write_taps(tmp_path / "taps.csv", names, pts, vals)
+
+
+def test_a_scene_keeps_its_parts_and_their_names(tmp_path):
+    path, big, small = _scene_file(tmp_path)
+    body = mp.load_body(path)
+    assert sorted(body.part_names) == ["body", "rear wing"]
+    counts = dict(zip(body.part_names, np.bincount(body.face_part)))
+    assert counts == {"body": len(big.faces), "rear wing": len(small.faces)}
+    listed = {p["name"]: p for p in body.report.part_list}
+    assert listed["rear wing"]["area_m2"] == pytest.approx(small.area, rel=1e-6)  # glTF stores float32
+
+
+def test_stl_shells_become_parts_named_by_position(tmp_path):
+    big, small = _sphere(**BIG, subdivisions=4), _sphere(**SMALL, subdivisions=3)
+    path = tmp_path / "two.stl"
+    trimesh.util.concatenate([big, small]).export(str(path))
+    body = mp.load_body(path)  # default axes: x forward is -x, so x = +3 is behind the big sphere
+    assert body.part_names == ["two", "rear high"]
+    one = mp.load_body(path, split_shells=False)
+    assert one.part_names == ["two"]
+
+
+@pytest.mark.parametrize("split", [True, False])
+def test_uniform_and_hydrostatic_pressure_on_each_part(tmp_path, split):
+    # Divergence theorem: a uniform pressure gives no force on each closed part.  Archimedes: p = -rho g z gives
+    # each part the lift rho g V.  The thin-plate RBF reproduces a field linear in position exactly (its
+    # polynomial tail), with or without the parts kept apart.
+    rho_g = 1000.0 * 9.80665
+    path, big, small = _scene_file(tmp_path)
+    body = mp.load_body(path)
+    for pressure, expect in [(lambda p: np.full(len(p), 250.0), lambda m: 0.0),
+                             (lambda p: -rho_g * p[:, 2], lambda m: rho_g * m.volume)]:
+        taps_file = tmp_path / "p.csv"
+        # Taps on the facets themselves (so each reads the field exactly where it sits), and the highest and
+        # lowest vertex of each part: the field is bounded by the taps' range (fields/bounds.py).
+        pts = np.vstack([trimesh.sample.sample_surface(m, n, seed=k)[0] for k, (m, n) in enumerate([(big, 60), (small, 25)])]
+                        + [m.vertices[[m.vertices[:, 2].argmax(), m.vertices[:, 2].argmin()]] for m in (big, small)])
+        write_taps(taps_file, [f"T{i}" for i in range(len(pts))], pts, pressure(pts), kind="p")
+        taps = mp.project_taps(body, mp.read_taps(taps_file), max_distance=0.05)
+        field = mp.make_field("rbf", regions="parts") if split else mp.make_field("rbf")
+        r = mp.compute_loads(body, taps, field, ref_area=1.0)
+        parts = {p.name: p.loads for p in r.parts}
+        for name, mesh in (("body", big), ("rear wing", small)):
+            assert parts[name].lift_N == pytest.approx(expect(mesh), abs=1e-6 * rho_g * big.volume)
+            assert abs(parts[name].drag_N) < 1e-6 * rho_g * big.volume
+        assert sum(p.lift_N for p in parts.values()) == pytest.approx(r.lift_N, rel=1e-12, abs=1e-9)
+
+
+def test_default_loads_per_part_sum_to_the_whole_with_bands(tmp_path):
+    # Potential flow round each sphere alone (each in its own free stream: a test of bookkeeping, not of
+    # interference): no force on either (d'Alembert); the parts' figures sum to the whole.
+    path, _, _ = _scene_file(tmp_path)
+
+    def cp(u, p):
+        return exact.sphere_cp(u)
+
+    taps_file = _taps(tmp_path, cp)
+    run = mp.loads.analysis.run_loads_parts(path, taps_file, q=500.0, bands=True, max_tap_distance=0.05)
+    r = run.result
+    assert [p.name for p in r.parts] == run.body.part_names and len(r.parts) == 2
+    for k in ("lift_N", "drag_N", "side_N", "pitch_moment_Nm"):
+        assert sum(getattr(p.loads, k) for p in r.parts) == pytest.approx(getattr(r, k), rel=1e-9, abs=1e-9)
+    for p in r.parts:
+        # No force by d'Alembert, within the band (the taps sample the field; the band says how well).
+        assert abs(p.loads.CL) < 3 * p.bands["CL_u"] + 0.01
+        assert p.bands["CL_lo95"] < p.loads.CL < p.bands["CL_hi95"]
+        assert p.bands["CL"] == pytest.approx(p.loads.CL, rel=1e-7, abs=1e-9)  # one model: the band's centre
+    assert "independent regions" in r.method
+
+
+def test_parts_are_kept_apart_in_the_field(tmp_path):
+    # Two constant fields, one per part: kept apart, each part's faces carry exactly its own constant; merged,
+    # a straight-line RBF across the gap mixes them a little (the reason to keep them apart).
+    path, _, _ = _scene_file(tmp_path)
+    body = mp.load_body(path)
+    ub, pb = _spread(40, **BIG, seed=5)
+    us, ps = _spread(20, **SMALL, seed=6)
+    f = write_taps(tmp_path / "c.csv", [f"T{i}" for i in range(60)], np.vstack([pb, ps]),
+                   np.r_[np.full(40, 0.5), np.full(20, -0.5)])
+    taps = mp.project_taps(body, mp.read_taps(f), max_distance=0.05)
+    wing = body.face_part == body.part_names.index("rear wing")
+    apart = mp.make_field("rbf", regions="parts").fit(body, taps).face_values()
+    merged = mp.make_field("rbf").fit(body, taps).face_values()
+    assert np.allclose(apart[wing], -0.5, atol=1e-9) and np.allclose(apart[~wing], 0.5, atol=1e-9)
+    assert np.abs(merged[wing] + 0.5).max() > 1e-4
+
+
+def test_cli_part_option_table_and_json(tmp_path, cli):
+    big, small = _sphere(**BIG, subdivisions=4), _sphere(**SMALL, subdivisions=3)
+    big.export(str(tmp_path / "body.stl"))
+    small.export(str(tmp_path / "wing.stl"))
+
+    def cp(u, p):
+        return exact.sphere_cp(u)
+
+    taps_file = _taps(tmp_path, cp)
+    out = tmp_path / "r.json"
+    r = cli("loads", tmp_path / "body.stl", taps_file, "--part", f"wing={tmp_path / 'wing.stl'}", "--q", "500",
+            "--method", "rbf", "--no-bands", "--max-tap-distance", "0.05", "--json", out, "--quiet")
+    assert r.returncode == 0, r.stderr
+    assert "part " in r.stdout and "\n  wing " in r.stdout
+    d = json.loads(out.read_text())
+    names = [p["name"] for p in d["parts"]]
+    assert names == ["body", "wing"]
+    for p in d["parts"]:
+        assert {"faces", "area_m2", "CL", "CD", "lift_N", "drag_N", "force_N"} <= set(p)
+    assert sum(p["lift_N"] for p in d["parts"]) == pytest.approx(d["lift_N"], rel=1e-9, abs=1e-9)
+    bad = cli("loads", tmp_path / "body.stl", taps_file, "--part", "wing.stl", "--q", "500", "--quiet")
+    assert bad.returncode == 2 and "NAME=FILE" in bad.stderr and "Traceback" not in bad.stderr
+    assert len(bad.stderr.strip().splitlines()) == 1
