@@ -101,6 +101,7 @@ def test_uniform_and_hydrostatic_pressure_on_each_part(tmp_path, split):
         assert sum(p.lift_N for p in parts.values()) == pytest.approx(r.lift_N, rel=1e-12, abs=1e-9)
 
 
+@pytest.mark.slow
 def test_default_loads_per_part_sum_to_the_whole_with_bands(tmp_path):
     # Potential flow round each sphere alone (each in its own free stream: a test of bookkeeping, not of
     # interference): no force on either (d'Alembert); the parts' figures sum to the whole.
@@ -110,7 +111,9 @@ def test_default_loads_per_part_sum_to_the_whole_with_bands(tmp_path):
         return exact.sphere_cp(u)
 
     taps_file = _taps(tmp_path, cp)
-    run = mp.loads.analysis.run_loads_parts(path, taps_file, q=500.0, bands=True, max_tap_distance=0.05)
+    from meshpress.loads.analysis import run_loads_parts
+
+    run = run_loads_parts(path, taps_file, q=500.0, bands=True, max_tap_distance=0.05)
     r = run.result
     assert [p.name for p in r.parts] == run.body.part_names and len(r.parts) == 2
     for k in ("lift_N", "drag_N", "side_N", "pitch_moment_Nm"):

@@ -257,6 +257,7 @@ def load_body(
     ground: float | None = None,
     parts=None,
     split_shells: bool = True,
+    mirror=None,
     progress: Progress | None = None,
 ) -> Body:
     """Read a surface mesh and bring it into the vehicle frame.
@@ -281,6 +282,10 @@ def load_body(
         When the main file is one surface (an STL), make each connected shell
         a part of its own, named by where it sits (:func:`name_shells`).  A
         scene's parts are kept as the scene names them either way.
+    mirror : True or float, optional
+        The file is half a body: build the other half across the centre
+        plane, found from the open edges (True) or given as its coordinate on
+        the mesh's lateral axis, mesh unit (:mod:`meshpress.bodies.mirror`).
     progress : Progress, optional
         Progress display.
 
@@ -307,10 +312,24 @@ def load_body(
     with progress.step("cleaning mesh"):
         v, f, av, merged, dropped, kept = _clean(v, f)
         face_part = face_part[kept]
+    mirror_note = None
+    if mirror is not None and mirror is not False:
+        from .mirror import mirror_half
+
+        lateral = R[1]  # the vehicle's y (right) in the mesh's axes: a signed mesh axis
+        k = int(np.argmax(np.abs(lateral)))
+        sign = float(np.sign(lateral[k]))
+        with progress.step("mirroring the half body"):
+            v, f, face_part, plane, how = mirror_half(v, f, face_part, lateral,
+                                                      None if mirror is True else sign * float(mirror))
+            v, f, av, _, _, kept = _clean(v, f)
+            face_part = face_part[kept]
+        mirror_note = (f"mirrored: the other half was built across the centre plane {'xyz'[k]} = {sign * plane:g} "
+                       f"{length_unit} ({how}); the loads are those of the whole, symmetric body")
     p = scale * v @ R.T
     # Origin: ground (lowest point or given), mid-wheelbase (or mid-length), mid-track.
     frame = FrameMap(R, scale, np.zeros(3))
-    warnings = []
+    warnings = [] if mirror_note is None else [mirror_note]
     if ground is None:
         gz = p[:, 2].min()
     else:

@@ -23,8 +23,22 @@ def add_body_options(p):
     g.add_argument("--part", action="append", default=[], metavar="NAME=FILE",
                    help="add a part from another mesh file in the same unit and axes (repeatable), e.g. "
                         "--part wing=wing.stl; its loads are given on their own row")
+    g.add_argument("--mirror", nargs="?", const=True, default=None, type=_mirror_value, metavar="Y",
+                   help="the mesh is half a car: build the other half across the centre plane, found from the "
+                        "open edges, or at Y on the mesh's lateral axis (mesh unit)")
+    g.add_argument("--mirror-taps", action="store_true",
+                   help="taps are on one side only: mirror them to the other side (side force and yaw are "
+                        "then zero by assumption)")
     g.add_argument("--merge-parts", action="store_true",
                    help="fit one field across all parts (by default no field crosses from one part to another)")
+
+
+def _mirror_value(text):
+    try:
+        return float(text)
+    except ValueError:
+        raise InputError(f"--mirror {text!r}: give the centre plane's coordinate as a number, or no value to "
+                         "find it") from None
 
 
 def parse_parts(values) -> list:
@@ -238,10 +252,17 @@ def load_inputs(args, progress, *, values: bool = True):
     from ..taps.layout import read_taps
 
     body = load_body(args.mesh, length_unit=args.length_unit, up=args.up, forward=args.forward,
-                     front_axle=args.front_axle, rear_axle=args.rear_axle, ground=args.ground, progress=progress)
+                     front_axle=args.front_axle, rear_axle=args.rear_axle, ground=args.ground,
+                     parts=parse_parts(getattr(args, "part", ())), mirror=getattr(args, "mirror", None),
+                     progress=progress)
     if not args.taps:
         return body, None
     table = read_taps(args.taps, pressure_unit=args.pressure_unit, values=values)
+    if getattr(args, "mirror_taps", False):
+        from ..bodies.mirror import MIRROR_TAPS_CAUTION, mirror_taps
+
+        table = mirror_taps(table, body)
+        body.warnings.append(MIRROR_TAPS_CAUTION)
     with progress.step("projecting taps"):
         taps = project_taps(body, table, max_distance=max_distance_m(args.max_tap_distance, args.length_unit))
     return body, taps

@@ -238,22 +238,30 @@ class LoadRun:
 def run_loads_parts(mesh, taps_file, *, length_unit="m", up="+z", forward="-x", front_axle=None, rear_axle=None,
                     ground=None, pressure_unit="Pa", max_tap_distance=TOL.max_tap_distance_m, method=DEFAULT_METHOD,
                     method_settings=None, q=None, ref_area=None, p_ref=0.0, bands=None, parts=None,
-                    merge_parts=False, progress=None) -> LoadRun:
+                    merge_parts=False, mirror=None, mirror_taps=False, progress=None) -> LoadRun:
     """:func:`run_loads`, keeping the body, the projected taps and the fitted field.
 
     ``bands``: None for none, True for the bands with no stated measurement error (the fit's nugget still
     counts), or a dict of :meth:`meshpress.bands.uncertainty.Measurement.build` arguments (``sensor``, ``tap_u``,
     ``u_p_ref``, ``u_q_rel``).  With the default method the loads are the centre of these bands (one model).
     ``parts``: more parts from other files (:func:`~meshpress.bodies.body.load_body`); a body of several parts
-    is fitted with its parts as independent regions unless ``merge_parts``.
+    is fitted with its parts as independent regions unless ``merge_parts``.  ``mirror``: the mesh is half a
+    body (:func:`~meshpress.bodies.body.load_body`); ``mirror_taps``: the taps are on one side and are mirrored
+    to the other (:func:`~meshpress.bodies.mirror.mirror_taps`).
     """
     progress = progress or Progress(enabled=False)
     body = load_body(mesh, length_unit=length_unit, up=up, forward=forward, front_axle=front_axle,
-                     rear_axle=rear_axle, ground=ground, parts=parts, progress=progress)
+                     rear_axle=rear_axle, ground=ground, parts=parts, mirror=mirror, progress=progress)
     # Start the frontal area and (for big bodies) the face clusters on the second core.
     body.prefetch(frontal_resolution=None if ref_area is not None else TOL.frontal_resolution_m,
                   cluster_cell=TOL.cluster_cell_m if body.n_faces > TOL.cluster_min_faces else None)
     table = read_taps(taps_file, pressure_unit=pressure_unit)
+    if mirror_taps:
+        from ..bodies.mirror import MIRROR_TAPS_CAUTION
+        from ..bodies.mirror import mirror_taps as mirrored
+
+        table = mirrored(table, body)
+        body.warnings.append(MIRROR_TAPS_CAUTION)
     with progress.step("projecting taps"):
         projected = project_taps(body, table, max_distance=max_tap_distance)
     settings = dict(method_settings or {})
