@@ -205,3 +205,58 @@ def image_grid(images: dict, titles: dict | None = None, *, columns=3, suptitle=
         fig.suptitle(_plain(suptitle), fontsize=11, family="monospace", x=0.01, ha="left")
     fig.tight_layout()
     return fig
+
+
+def parts_plot(triangles, face_part, names, *, axles=None, max_faces=60_000, size=(10.0, 5.6), seed=0):
+    """Side and top views of the body with every part in its own colour, outlined and named.
+
+    Parameters
+    ----------
+    triangles : (m, 3, 3) float
+        Face corners, vehicle frame, m.
+    face_part : (m,) int
+        Part of every face (index into ``names``).
+    names : list of str
+    axles : Axles, optional
+        Drawn as dashed lines.
+    max_faces : int
+        Faces drawn at most (a random subset of a bigger body: the outline stays).
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    plt = _plt()
+    from matplotlib.collections import PolyCollection
+
+    tri = np.asarray(triangles, float)
+    part = np.asarray(face_part)
+    if len(tri) > max_faces:
+        keep = np.sort(np.random.default_rng(seed).choice(len(tri), max_faces, replace=False))
+        tri, part = tri[keep], part[keep]
+    cmap = plt.get_cmap("tab10" if len(names) <= 10 else "tab20")
+    colours = [cmap(i % cmap.N) for i in range(len(names))]
+    fig, axes = plt.subplots(2, 1, figsize=size, sharex=True)
+    # Side view from the left (x along, z up: the nearest faces, smallest y, drawn last); top view (x along,
+    # y across, drawn with y downward so the right side is at the bottom as seen from above with the nose left).
+    for ax, (a, b, depth, title) in zip(axes, [(0, 2, 1, "side (from the left)"), (0, 1, 2, "top")]):
+        order = np.argsort(-tri[:, :, depth].mean(axis=1) if depth == 1 else tri[:, :, depth].mean(axis=1))
+        polys = tri[order][:, :, [a, b]]
+        fc = np.array([colours[k] for k in part[order]])
+        ax.add_collection(PolyCollection(polys, facecolors=fc, edgecolors=fc, linewidths=0.2))
+        lo, hi = tri[:, :, [a, b]].reshape(-1, 2).min(axis=0), tri[:, :, [a, b]].reshape(-1, 2).max(axis=0)
+        pad = 0.05 * (hi - lo).max()
+        ax.set_xlim(lo[0] - pad, hi[0] + pad)
+        ax.set_ylim(lo[1] - pad, hi[1] + pad)
+        ax.set_aspect("equal")
+        ax.set_title(title, loc="left")
+        ax.set_ylabel("z, m" if b == 2 else "y, m")
+        if b == 1:
+            ax.invert_yaxis()
+        _axles(ax, axles, label=False)
+    axes[1].set_xlabel("x, m (rearward)")
+    handles = [plt.Rectangle((0, 0), 1, 1, color=c) for c in colours]
+    fig.legend(handles, names, loc="upper right", ncol=min(4, len(names)), fontsize=8.5)
+    fig.suptitle("Parts of the body", x=0.02, ha="left", fontweight="bold")
+    fig.tight_layout(rect=(0, 0, 1, 0.9))
+    return fig

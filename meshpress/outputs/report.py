@@ -119,6 +119,9 @@ def report_pictures(run, *, progress=None, views=VIEW_ORDER, view_size=(1200, 72
         dist = lift_distribution(body.triangles, body.area_vectors, values, p_ref=p_ref, scale=scale)
         out["plots"]["lift_distribution"] = plots.png_bytes(plots.lift_distribution_plot(
             dist, per_q=per_q, axles=body.axles, front_lift=result.front_lift_N, rear_lift=result.rear_lift_N))
+        if len(body.part_names) > 1:
+            out["plots"]["parts"] = plots.png_bytes(plots.parts_plot(body.triangles, body.face_part,
+                                                                     body.part_names, axles=body.axles))
         if residuals is not None:
             out["plots"]["residuals"] = plots.png_bytes(
                 plots.residual_plot(list(taps.names), residuals * to_unit, unit=unit))
@@ -268,6 +271,21 @@ _VIEW_CAPTIONS = {
 }
 
 
+def _parts_table(r) -> str:
+    """One row per part: faces, area, taps, lift, drag and the coefficients (with u of CL when banded)."""
+    banded = any(p.bands for p in r.parts)
+    head = ("<tr><th>part</th><th>faces</th><th>area m²</th><th>taps</th><th>lift N</th><th>drag N</th>"
+            "<th>CL</th><th>CD</th><th>CLF</th><th>CLR</th>" + ("<th>u(CL)</th>" if banded else "") + "</tr>")
+    rows = []
+    for p in r.parts:
+        L = p.loads
+        u = f"<td>{_num((p.bands or {}).get('CL_u'), '.3f')}</td>" if banded else ""
+        rows.append(f"<tr><td>{_esc(p.name)}</td><td>{p.faces:,}</td><td>{p.area_m2:.3f}</td><td>{p.taps}</td>"
+                    f"<td>{_num(L.lift_N, ',.1f')}</td><td>{_num(L.drag_N, ',.1f')}</td><td>{_num(L.CL, '+.3f')}</td>"
+                    f"<td>{_num(L.CD, '+.3f')}</td><td>{_num(L.CLF, '+.3f')}</td><td>{_num(L.CLR, '+.3f')}</td>{u}</tr>")
+    return "<table>" + head + "".join(rows) + "</table>"
+
+
 def _figures_rows(r) -> str:
     rows = [
         ("Lift (+ up; negative = downforce)", _num(r.lift_N, ",.1f", "N"), "CL", _num(r.CL, "+.3f")),
@@ -375,6 +393,13 @@ def render_html(result, pics, rows, *, title=None, demo_note=None, written=(), s
         f"{r.ref_area_m2:.3f}&nbsp;m\u00b2 ({_esc(r.ref_area_source)}); wheelbase {_num(r.wheelbase_m, '.3f', 'm')}; "
         f"reference pressure subtracted p_ref = {r.p_ref:g} ({'Pa' if r.value_kind == 'p' else 'Cp'}). "
         "Coefficients: CL = L/(q A), CPM = M<sub>y</sub>/(q A WB), CLF = CL/2 + CPM, CLR = CL/2 &minus; CPM.</p>")
+    if r.parts:
+        parts.append("<h2>Parts</h2>")
+        parts.append(_parts_table(r))
+        if "parts" in pics["plots"]:
+            parts.append(f"<figure>{_img_tag(pics['plots']['parts'], 'the parts of the body')}<figcaption>"
+                         "Each part in its own colour. No field crosses from one part to another, and each part's "
+                         "figures are its own faces' share of the whole (they add up to it).</figcaption></figure>")
     for heading, body_html in sections:
         parts.append(f"<h2>{_esc(heading)}</h2>")
         parts.append(body_html)
