@@ -4,9 +4,11 @@ A Gaussian-process model needs the covariance between every pair of places on
 the surface, and surface (geodesic) distances need a factorised Laplacian: both
 grow too fast to use a million-face body directly.  The body is therefore
 simplified (quadric edge collapse, Garland and Heckbert 1997, via
-fast-simplification) to a carrier of a few thousand vertices.  Each carrier
-vertex stands for a *patch* of the body (the fine faces that lean on it); the
-field is modelled by its values at the carrier vertices, and
+fast-simplification, after vertex clustering where the collapse alone stalls
+or would be slow: :mod:`meshpress.bands.coarsen`) to a carrier of a few
+thousand vertices.  Each carrier vertex stands for a *patch* of the body (the
+fine faces that lean on it); the field is modelled by its values at the carrier
+vertices, and
 
 - a fine face's value is an inverse-distance mean of its (up to) 4 nearest
   carrier vertices whose normals agree with the face's (so the two skins of a
@@ -36,12 +38,19 @@ class Carrier:
         Target number of carrier vertices (patches); the body itself is used
         when it is smaller.
     progress : Progress, optional
+    simplify : {"auto", "quadric", "cluster"}
+        How the body is simplified (:func:`meshpress.bands.coarsen.coarsen`):
+        ``"auto"`` collapses edges and falls back on vertex clustering when
+        the collapse stalls or the body is big.
 
     Attributes
     ----------
     vertices : (n_c, 3) float
         Carrier vertex positions, m, vehicle frame.
     faces : (f_c, 3) int
+    route : str
+        How the carrier was made: ``"none"`` (the body itself), ``"quadric"``,
+        ``"cluster+quadric"`` or ``"cluster"``.
     normals : (n_c, 3) float
         Area-weighted unit vertex normals.
     distance : (n_c, n_c) float
@@ -50,26 +59,12 @@ class Carrier:
         Fine face values from carrier vertex values; rows sum to 1.
     """
 
-    def __init__(self, body, n_vertices: int = 2500, *, progress=None):
+    def __init__(self, body, n_vertices: int = 2500, *, progress=None, simplify: str = "auto"):
         from ..bodies.geodesic import SurfaceDistance
+        from .coarsen import coarsen
 
-        v, f = np.asarray(body.vertices, float), np.asarray(body.faces, np.int64)
-        vc, fc = v.copy(), f.copy()
-        # One collapse pass can stop well short of a large reduction (1M faces -> 64k vertices instead of
-        # 2.5k), so repeat until the target is reached.
-        for _ in range(8):
-            if len(vc) <= n_vertices * 1.2:
-                break
-            import fast_simplification
-
-            keep = n_vertices / len(vc)
-            v2, f2 = fast_simplification.simplify(vc.astype(np.float32), fc.astype(np.int32),
-                                                  target_reduction=float(1 - keep))
-            v2, f2 = _drop_unused(np.asarray(v2, float), np.asarray(f2, np.int64))
-            if len(v2) >= len(vc):
-                break
-            vc, fc = v2, f2
-        if len(vc) > 4 * n_vertices:
+        vc, fc, self.route = coarsen(body.vertices, body.faces, n_vertices, how=simplify)
+        if len(vc) > 4 * n_vertices:  # only with simplify="quadric": "auto" always reaches the target
             from ..errors import InputError
 
             raise InputError(f"could not simplify the body below {len(vc)} vertices for the covariance "
@@ -264,13 +259,6 @@ class Carrier:
         from scipy.spatial import cKDTree
 
         return cKDTree(self.vertices).query(np.asarray(points, float).reshape(-1, 3))[1]
-
-
-def _drop_unused(v, f):
-    used = np.unique(f)
-    remap = -np.ones(len(v), np.int64)
-    remap[used] = np.arange(len(used))
-    return v[used], remap[f]
 
 
 def _vertex_normals(v, f):
