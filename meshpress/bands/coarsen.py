@@ -37,7 +37,7 @@ CLUSTER_FACTOR = 8
 SLACK = 1.2
 
 
-def coarsen(vertices, faces, n_vertices: int, how: str = "auto"):
+def coarsen(vertices, faces, n_vertices: int, how: str = "auto", area_vectors=None):
     """Simplify a triangle mesh to about ``n_vertices`` vertices.
 
     Parameters
@@ -50,6 +50,9 @@ def coarsen(vertices, faces, n_vertices: int, how: str = "auto"):
         ``"auto"``: as the module says.  ``"quadric"``: collapse only (the
         result may stay above the target).  ``"cluster"``: cluster first, then
         collapse, whatever the body's size.
+    area_vectors : (m, 3) float, optional
+        The faces' normals times their areas, when already known (a
+        :class:`~meshpress.bodies.body.Body` caches them).
 
     Returns
     -------
@@ -70,11 +73,11 @@ def coarsen(vertices, faces, n_vertices: int, how: str = "auto"):
         if how == "quadric" or len(vq) <= SLACK * n_vertices:
             return vq, fq, "quadric"
     if CLUSTER_FACTOR * n_vertices < len(v):
-        vc, fc = cluster_to(v, f, CLUSTER_FACTOR * n_vertices)
+        vc, fc = cluster_to(v, f, CLUSTER_FACTOR * n_vertices, area_vectors=area_vectors)
         vq, fq = collapse(vc, fc, n_vertices)
         if len(vq) <= SLACK * n_vertices:
             return vq, fq, "cluster+quadric"
-    vc, fc = cluster_to(v, f, n_vertices)
+    vc, fc = cluster_to(v, f, n_vertices, area_vectors=area_vectors)
     return vc, fc, "cluster"
 
 
@@ -103,13 +106,13 @@ def collapse(vertices, faces, n_vertices: int, passes: int = 4):
     return v, f
 
 
-def cluster_to(vertices, faces, n_vertices: int, rounds: int = 4):
+def cluster_to(vertices, faces, n_vertices: int, rounds: int = 4, area_vectors=None):
     """Vertex clustering (:func:`cluster_vertices`) on a grid sized to give about ``n_vertices`` clusters.
 
     The first cell side is ``sqrt(1.5 area / n)`` (a surface crosses about 1.5
     cells of area ``h^2`` per ``h^2`` of its area, averaged over orientations);
     it is then scaled by ``sqrt(clusters / n)`` until the count is within
-    ``SLACK``.
+    ``SLACK``.  ``area_vectors`` as :func:`coarsen`.
 
     Returns
     -------
@@ -117,7 +120,7 @@ def cluster_to(vertices, faces, n_vertices: int, rounds: int = 4):
     faces : (m', 3) int
     """
     v, f = np.asarray(vertices, float), np.asarray(faces, np.int64)
-    n, w = _vertex_normals_areas(v, f)
+    n, w = _vertex_normals_areas(v, f, area_vectors)
     cell = float(np.sqrt(1.5 * w.sum() / n_vertices))
     for _ in range(rounds):
         code = _clusters(v, n, w, cell)
@@ -209,15 +212,18 @@ def _main_axis(cells, n, w):
     return np.linalg.eigh(S)[1][:, :, -1]
 
 
-def _vertex_normals_areas(v, f):
+def _vertex_normals_areas(v, f, area_vectors=None):
     """Area-weighted unit normals (n, 3) and a third of the area of the faces round each vertex (n,)."""
-    a, b, c = v[f[:, 0]], v[f[:, 1]], v[f[:, 2]]
-    u, t = b - a, c - a
-    cross = np.column_stack([u[:, 1] * t[:, 2] - u[:, 2] * t[:, 1], u[:, 2] * t[:, 0] - u[:, 0] * t[:, 2],
-                             u[:, 0] * t[:, 1] - u[:, 1] * t[:, 0]])
+    if area_vectors is None:
+        a, b, c = v[f[:, 0]], v[f[:, 1]], v[f[:, 2]]
+        u, t = b - a, c - a
+        area_vectors = 0.5 * np.column_stack([u[:, 1] * t[:, 2] - u[:, 2] * t[:, 1],
+                                              u[:, 2] * t[:, 0] - u[:, 0] * t[:, 2],
+                                              u[:, 0] * t[:, 1] - u[:, 1] * t[:, 0]])
+    av = np.asarray(area_vectors, float)
     idx = f.ravel()
-    n = np.stack([np.bincount(idx, np.repeat(cross[:, d], 3), minlength=len(v)) for d in range(3)], axis=1)
+    n = np.stack([np.bincount(idx, np.repeat(av[:, d], 3), minlength=len(v)) for d in range(3)], axis=1)
     n /= np.maximum(np.linalg.norm(n, axis=1, keepdims=True), 1e-300)
-    w = np.bincount(idx, np.repeat(np.sqrt((cross**2).sum(axis=1)) / 6.0, 3), minlength=len(v)) + 1e-300
+    w = np.bincount(idx, np.repeat(np.sqrt((av**2).sum(axis=1)) / 3.0, 3), minlength=len(v)) + 1e-300
     return n, w
 

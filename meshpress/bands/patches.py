@@ -63,7 +63,8 @@ class Carrier:
         from ..bodies.geodesic import SurfaceDistance
         from .coarsen import coarsen
 
-        vc, fc, self.route = coarsen(body.vertices, body.faces, n_vertices, how=simplify)
+        vc, fc, self.route = coarsen(body.vertices, body.faces, n_vertices, how=simplify,
+                                     area_vectors=body.area_vectors)
         if len(vc) > 4 * n_vertices:  # only with simplify="quadric": "auto" always reaches the target
             from ..errors import InputError
 
@@ -137,7 +138,7 @@ class Carrier:
         points = np.asarray(points, float)
         normals = np.asarray(normals, float)
         kq = min(3 * k, self.n)
-        rows, cols, vals = [], [], []
+        counts, cols, vals = [], [], []
         for s in range(0, len(points), chunk):
             p, nrm = points[s : s + chunk], normals[s : s + chunk]
             d, j = tree.query(p, k=kq)
@@ -149,13 +150,14 @@ class Carrier:
             ok &= rank <= k
             w = np.where(ok, 1.0 / np.maximum(d, 1e-9) ** 2, 0.0)
             w /= w.sum(axis=1, keepdims=True)
-            r = np.repeat(np.arange(s, s + len(p)), kq)
-            m = w.ravel() > 0
-            rows.append(r[m])
-            cols.append(j.ravel()[m])
-            vals.append(w.ravel()[m])
-        return sp.csr_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
-                             shape=(len(points), self.n))
+            counts.append(ok.sum(axis=1))
+            cols.append(j[ok])
+            vals.append(w[ok])
+        # Built as CSR directly (row by row, in order): through COO it took 0.6 s more on 1M faces.
+        indptr = np.concatenate([[0], np.cumsum(np.concatenate(counts))])
+        B = sp.csr_matrix((np.concatenate(vals), np.concatenate(cols), indptr), shape=(len(points), self.n))
+        B.sort_indices()
+        return B
 
     def points_matrix(self, points):
         """(p, n_c) sparse: barycentric weights on the nearest carrier face of each surface point (m)."""
