@@ -513,6 +513,12 @@ def compute_uncertainty(body, taps, *, q=None, ref_area, meas: Measurement | Non
     meas = meas or Measurement.build(n)
     if len(meas.tap_u) != n:
         raise InputError(f"{len(meas.tap_u)} tap uncertainties for {n} taps")
+    from ..fields.regional import RegionalField
+
+    if isinstance(field, RegionalField) and field.method == "posterior" and hasattr(field, "parts_"):
+        from .regional import regional_uncertainty
+
+        return regional_uncertainty(body, taps, field, q=q, ref_area=ref_area, meas=meas, progress=progress)
     wb = body.axles.wheelbase if body.axles is not None else None
     names, G = figure_face_weights(body, kind=taps.kind, q=q, ref_area=ref_area, wheelbase=wb)
     names, G = with_part_figures(body, names, G)

@@ -73,27 +73,27 @@ def bands_measurement(sensor_accuracy=0.0) -> dict:
 def format_loads(run) -> str:
     """The loads table; with bands of the same model, one answer per figure with its band on its row; with
     bands of another method's field, the bands' own table below (the field column beside the estimate)."""
-    from ..fields.posterior import PosteriorField
+    from ..fields.posterior import is_posterior_model
     from ..outputs.textreport import format_result
     from .uncertainty import format_bands
 
     if run.bands is None:
         return format_result(run.result)
-    if isinstance(run.field, PosteriorField):
+    if is_posterior_model(run.field):
         return format_result(run.result, bands=run.bands)
     return format_result(run.result) + "\n\n" + format_bands(run.bands, run.field.describe())
 
 
 def write_loads_report(run, out, *, protect, progress, **kw):
     """The HTML report of a run, with its bands' section when it has bands (pyvista and matplotlib load here)."""
-    from ..fields.posterior import PosteriorField
+    from ..fields.posterior import is_posterior_model
     from ..outputs.report import write_report
 
     sections, extra, json_extra = (), None, None
     if run.bands is not None:
         from ..outputs.bandreport import bands_section_html, importance_png
 
-        own = isinstance(run.field, PosteriorField)
+        own = is_posterior_model(run.field)
         with progress.step("rendering the map"):
             png = importance_png(run.bands, run.body, run.taps, "CL")
         sections = [("How sure is the number", bands_section_html(

@@ -151,3 +151,14 @@ def fit_surface_gp(carrier, taps, tap_var=None, *, kernel="auto", trend="newtoni
                               **stagnation_params(trend, taps.kind, q, stagnation))
     gp.fit(T, taps.values, tap_var)
     return gp, groups, B
+
+
+def is_posterior_model(field) -> bool:
+    """True for the default model: the posterior field, or the posterior fitted part by part.
+
+    Then the bands are the field's own (:func:`meshpress.bands.uncertainty.compute_uncertainty`
+    reuses its fit), and the loads are their centre.
+    """
+    from .regional import RegionalField
+
+    return isinstance(field, PosteriorField) or (isinstance(field, RegionalField) and field.method == "posterior")

@@ -87,7 +87,7 @@ class RegionalField(Field):
                 self.loo_[i] = self.loo_nested_[i] = taps.values[i] - self._empty_prediction(taps, i)
                 self.parts_.append((name, None))
                 continue
-            inner = make_field(self.method, **self.settings)
+            inner = make_field(self.method, **self._settings_for(tm, sub))
             inner.fit(sub, st, progress=progress)
             values[fm] = inner.face_values(progress=progress)
             self.loo_[tm] = inner.loo_residuals()
@@ -103,6 +103,17 @@ class RegionalField(Field):
         self.values_ = values
         self.extrapolated_share_ = extrap
         self.clamped_share_ = clamped
+
+    def _settings_for(self, tap_mask, sub):
+        """The inner method's settings for one region: per-tap settings cut to its taps, a carrier its size."""
+        st = dict(self.settings)
+        if st.get("tap_var") is not None:
+            st["tap_var"] = np.asarray(st["tap_var"], float)[tap_mask]
+        if self.method == "posterior":
+            # Each part its own carrier, no bigger than the part itself.
+            st["patches"] = int(min(st.get("patches", 2500), len(sub.vertices)))
+            st.pop("carrier", None)
+        return st
 
     def _empty_prediction(self, taps, i):
         if self.empty_value is not None:

@@ -265,17 +265,25 @@ def run_loads_parts(mesh, taps_file, *, length_unit="m", up="+z", forward="-x", 
     with progress.step("projecting taps"):
         projected = project_taps(body, table, max_distance=max_tap_distance)
     settings = dict(method_settings or {})
-    if len(body.part_names) > 1 and not merge_parts:
-        from ..bodies.regions import with_parts
-
-        # Parts are separate surfaces: no field may carry a wing's pressure across the gap to the deck below.
-        settings["regions"] = with_parts(body, settings.get("regions"))
-    field = make_field(method, **settings)
     meas = None
     if bands is not None and bands is not False:
         from ..bands.uncertainty import Measurement
 
         meas = Measurement.build(len(projected), **({} if bands is True else bands))
+    if len(body.part_names) > 1 and not merge_parts:
+        from ..bodies.regions import with_parts
+        from ..fields.regional import RegionalField
+
+        # Parts are separate surfaces: no field may carry a wing's pressure across the gap to the deck below.
+        # The default model goes further and fits each part on its own (its own length scales and levels).
+        regions = with_parts(body, settings.pop("regions", None))
+        if method == PosteriorField.name:
+            settings.update(tap_var=None if meas is None else meas.tap_u**2, q=q)
+            field = RegionalField(method, regions, settings.pop("empty_value", None), settings)
+        else:
+            field = make_field(method, regions=regions, **settings)
+    else:
+        field = make_field(method, **settings)
     if isinstance(field, PosteriorField):
         # The field is the bands' model: it takes the stated tap errors as known noise, and q for the
         # stagnation level of readings in Pa.
