@@ -206,3 +206,32 @@ def test_a_wing_part_above_a_body_gives_its_own_kutta_joukowski_lift():
     assert wing.taps == len(wing_pts)
     cl_wing = wing.loads.force_per_q_m2[2] / (J.chord * 0.8)
     assert cl_wing == pytest.approx(J.cz, rel=0.05)
+
+
+def test_diff_says_what_a_change_did_to_each_part(tmp_path, cli):
+    # Change only the wing's readings, by dCp = k (z - z0) (k in 1/m): kept apart, the body's figures do not move,
+    # and the wing's lift changes by -k V_wing q (divergence theorem: -closed-integral of z n_z dA = -V), V from
+    # trimesh's mesh volume (a reference library).  The thin-plate RBF reproduces the linear change exactly.
+    path, big, small = _scene_file(tmp_path)
+    k, z0 = 0.8, SMALL["center"][2]
+    pts = np.vstack([trimesh.sample.sample_surface(m, n, seed=s)[0] for s, (m, n) in enumerate([(big, 50), (small, 30)])]
+                    + [m.vertices[[m.vertices[:, 2].argmax(), m.vertices[:, 2].argmin()]] for m in (big, small)])
+    on_wing = np.r_[np.zeros(50, bool), np.ones(30, bool), False, False, True, True]
+    base = 0.3 - 0.2 * pts[:, 2]
+    names = [f"T{i}" for i in range(len(pts))]
+    write_taps(tmp_path / "a.csv", names, pts, base)
+    write_taps(tmp_path / "b.csv", names, pts, base + np.where(on_wing, k * (pts[:, 2] - z0), 0.0))
+    q = 400.0
+    for tag in "ab":
+        r = cli("loads", path, tmp_path / f"{tag}.csv", "--q", q, "--ref-area", "1", "--method", "rbf", "--no-bands",
+                "--max-tap-distance", "0.05", "--json", tmp_path / f"{tag}.json", "--quiet")
+        assert r.returncode == 0, r.stderr
+    r = cli("diff", tmp_path / "a.json", tmp_path / "b.json")
+    assert r.returncode == 0, r.stderr
+    assert "by part:" in r.stdout
+    from meshpress.commands.diff import compare_files
+
+    d = compare_files(tmp_path / "a.json", tmp_path / "b.json")
+    assert d["parts"]["body"]["CL"] == pytest.approx(0.0, abs=1e-9)
+    assert d["parts"]["rear wing"]["CL"] == pytest.approx(-k * small.volume, rel=1e-6)
+    assert d["delta"]["CL"] == pytest.approx(d["parts"]["rear wing"]["CL"], rel=1e-9)

@@ -65,6 +65,13 @@ def compare_files(a_path, b_path) -> dict:
             out[t["name"]] = v
         return out
 
+    pa = {p["name"]: p for p in a.get("parts") or []}
+    pb = {p["name"]: p for p in b.get("parts") or []}
+    if pa and pb:
+        # What the change did to each part (the wing itself, and the body around it); a part in one file only
+        # has no change to give.
+        d["parts"] = {n: {k: None if pa[n].get(k) is None or pb[n].get(k) is None else pb[n][k] - pa[n][k]
+                          for k in DIFF_FIGURES} for n in pa if n in pb}
     ca, cb = cp(a), cp(b)
     common = [n for n in ca if n in cb]
     d["taps"] = [{"name": n, "cp_base": ca[n], "cp_other": cb[n], "delta_cp": cb[n] - ca[n]} for n in common]
@@ -89,6 +96,11 @@ def format_diff(d) -> str:
         x, y = d["base_figures"][k], d["other_figures"][k]
         f = (lambda z: "n/a" if z is None else f"{z:+.3f}")
         lines.append(f"  {k:<13}{f(x):>10}{f(y):>10}{f(v):>10}")
+    if d.get("parts"):
+        lines += ["", f"  by part: {'':<10}{'dCL':>8}{'dCD':>8}{'dCLF':>8}{'dCLR':>8}"]
+        f = (lambda z: "n/a" if z is None else f"{z:+.3f}")
+        for n, v in d["parts"].items():
+            lines.append(f"    {n[:17]:<17}{f(v['CL']):>8}{f(v['CD']):>8}{f(v['CLF']):>8}{f(v['CLR']):>8}")
     if d["taps"]:
         big = sorted(d["taps"], key=lambda t: -abs(t["delta_cp"]))[:8]
         lines += ["", "  largest per-tap changes in Cp:"]
