@@ -235,3 +235,35 @@ def test_diff_says_what_a_change_did_to_each_part(tmp_path, cli):
     assert d["parts"]["body"]["CL"] == pytest.approx(0.0, abs=1e-9)
     assert d["parts"]["rear wing"]["CL"] == pytest.approx(-k * small.volume, rel=1e-6)
     assert d["delta"]["CL"] == pytest.approx(d["parts"]["rear wing"]["CL"], rel=1e-9)
+
+
+def test_exported_cad_units_axes_and_scene_transforms(tmp_path):
+    # The same two-part scene written three ways: metres with z up; inches (25.4 mm exactly, by definition of the
+    # international inch, 1959) with y up and the nose along +z, as glTF exports often are; and with the wing as
+    # an untransformed copy placed by its node's transform.  All three give the same body in the vehicle frame.
+    _, big, small = _scene_file(tmp_path)
+    # mesh (x, y, z) from the scene's own (x, y, z): a rotation (det +1) taking z up to y up and -x forward to +z
+    to_yup = np.array([[0, -1, 0], [0, 0, 1], [-1, 0, 0]], float)
+    assert np.linalg.det(to_yup) == pytest.approx(1.0)
+    ref = mp.load_body(_scene_file(tmp_path)[0])
+    sc = trimesh.Scene()
+    for name, m in (("body", big), ("rear wing", small)):
+        c = m.copy()
+        c.vertices = (np.asarray(m.vertices) @ to_yup.T) / 0.0254
+        sc.add_geometry(c, node_name=name, geom_name="g " + name)
+    sc.export(str(tmp_path / "inch.glb"))
+    inch = mp.load_body(tmp_path / "inch.glb", length_unit="in", up="+y", forward="+z")
+    assert inch.report.source_frame.startswith("in, up +y, forward +z")
+    moved = trimesh.Scene()
+    moved.add_geometry(big, node_name="body", geom_name="g_body")
+    T = np.eye(4)
+    T[:3, 3] = SMALL["center"]
+    moved.add_geometry(_sphere(SMALL["radius"], (0, 0, 0), 3), node_name="rear wing", geom_name="g_wing", transform=T)
+    moved.export(str(tmp_path / "moved.glb"))
+    placed = mp.load_body(tmp_path / "moved.glb")
+    for b in (inch, placed):
+        assert sorted(b.part_names) == sorted(ref.part_names)
+        for name in ref.part_names:
+            ca = ref.centroids[ref.face_part == ref.part_names.index(name)].mean(axis=0)
+            cb = b.centroids[b.face_part == b.part_names.index(name)].mean(axis=0)
+            assert np.allclose(ca, cb, atol=1e-5), name

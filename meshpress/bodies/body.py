@@ -413,6 +413,9 @@ def load_body(
             closure=closure,
             orientable=orientable,
             volume_m3=body.volume() if watertight else None,
+            source_frame=f"{length_unit}, up {up}, forward {forward}"
+                         + ("; scene of parts, each with its own transform applied" if file_parts > 1 else "")
+                         + ("; mirrored" if mirror_note else ""),
             part_list=[{"name": n, "faces": int(c), "area_m2": float(a)} for n, c, a in
                        zip(names, np.bincount(body.face_part, minlength=len(names)),
                            np.bincount(body.face_part, body.face_areas, minlength=len(names)))],

@@ -45,6 +45,9 @@ class MeshReport:
         Enclosed volume when watertight.
     part_list : list of dict
         Each part's ``name``, ``faces`` and ``area_m2``.
+    source_frame : str
+        The file's unit and axes as read (e.g. ``"in, up +y, forward +z"``),
+        and whether a scene's transforms were applied.
     """
 
     faces: int
@@ -64,6 +67,7 @@ class MeshReport:
     orientable: bool = True
     volume_m3: float | None = None
     part_list: list = field(default_factory=list)
+    source_frame: str = ""
 
     def to_dict(self) -> dict:
         return asdict(self)

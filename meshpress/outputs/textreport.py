@@ -63,6 +63,8 @@ def format_result(r: LoadResult, bands=None) -> str:
             f"  mesh: {m['faces']:,} faces, {m['area_m2']:.2f} m2, "
             f"{'watertight' if m['watertight'] else 'open'}, {m['holes']} holes, closure {m['closure']:.2e}"
         )
+        if m.get("source_frame"):
+            lines.append(f"  file frame: {m['source_frame']} (into x rearward, y right, z up, m)")
     if bands is not None:
         lines.append(f"  u: standard uncertainty; 95 % interval = value +/- 1.96 u: {BAND_SCOPE}")
     if r.warnings:
