@@ -77,7 +77,7 @@ def run(args) -> int:
         return 0
     files = write_loads_report(run, out, protect=(mesh, taps), progress=progress,
                                title=f"meshpress demo: {mesh.name}",
-                               demo_note=f"INVENTED DEMO DATA: {sample['what']} and made-up readings, to show "
+                               demo_note=f"INVENTED DEMO DATA ({sample['what']}; made-up readings), to show "
                                          "what meshpress does. Not a measurement of any car.")
     print(f"\n  wrote {files.json}")
     print(f"  wrote {files.html} (open it in a browser) and the files beside it")
