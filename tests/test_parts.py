@@ -267,3 +267,31 @@ def test_exported_cad_units_axes_and_scene_transforms(tmp_path):
             ca = ref.centroids[ref.face_part == ref.part_names.index(name)].mean(axis=0)
             cb = b.centroids[b.face_part == b.part_names.index(name)].mean(axis=0)
             assert np.allclose(ca, cb, atol=1e-5), name
+
+
+def test_a_shell_inside_the_body_is_found_and_left_out(tmp_path):
+    # A small closed shell wholly inside a sphere (a seat in a closed body): the winding number of the sphere
+    # there is 1 (Jacobson et al. 2013), so it is left out and said so; a shell outside stays, named by place.
+    outer = _sphere(radius=1.0, center=(0, 0, 1.0), subdivisions=4)
+    seat = _sphere(radius=0.2, center=(0.3, 0.1, 0.8), subdivisions=2)
+    wing = _sphere(**SMALL, subdivisions=2)
+    path = tmp_path / "junk.stl"
+    trimesh.util.concatenate([outer, seat, wing]).export(str(path))
+    body = mp.load_body(path)
+    assert body.n_faces == len(outer.faces) + len(wing.faces)
+    assert body.report.inner_shells == 1 and body.report.inner_faces == len(seat.faces)
+    assert any("inside the body" in w for w in body.warnings)
+    assert body.part_names == ["junk", "rear high"]
+    kept = mp.load_body(path, keep_inner=True)
+    assert kept.n_faces == len(outer.faces) + len(seat.faces) + len(wing.faces)
+
+
+def test_non_manifold_edges_are_counted_and_located():
+    # Three triangles on one edge (a fin glued to a plate along its edge): that edge has three faces, the only
+    # non-manifold one (definition of a 2-manifold mesh: every edge has one or two faces).
+    from meshpress.bodies.diagnostics import nonmanifold_edges
+
+    v = np.array([[0, 0, 0], [1, 0, 0], [0.5, 1, 0], [0.5, -1, 0], [0.5, 0, 1]], float)
+    f = np.array([[0, 1, 2], [1, 0, 3], [0, 1, 4]])
+    d = nonmanifold_edges(f, v)
+    assert d["count"] == 1 and d["centre_m"] == [0.5, 0.0, 0.0]

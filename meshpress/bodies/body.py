@@ -15,7 +15,7 @@ from functools import cached_property
 import numpy as np
 
 from . import orient
-from .diagnostics import MeshReport, boundary_loops
+from .diagnostics import MeshReport, boundary_loops, nonmanifold_edges
 from ..errors import InputError
 from .frame import FrameMap, rotation
 from .grouping import group
@@ -258,6 +258,7 @@ def load_body(
     parts=None,
     split_shells: bool = True,
     mirror=None,
+    keep_inner: bool = False,
     progress: Progress | None = None,
 ) -> Body:
     """Read a surface mesh and bring it into the vehicle frame.
@@ -282,6 +283,10 @@ def load_body(
         When the main file is one surface (an STL), make each connected shell
         a part of its own, named by where it sits (:func:`name_shells`).  A
         scene's parts are kept as the scene names them either way.
+    keep_inner : bool
+        Keep shells that lie wholly inside the body (by default they are
+        found by the winding number, reported and left out:
+        :mod:`meshpress.bodies.inner`).
     mirror : True or float, optional
         The file is half a body: build the other half across the centre
         plane, found from the open edges (True) or given as its coordinate on
@@ -375,6 +380,29 @@ def load_body(
         rev = total_flip[bface]
         boundary = boundary.copy()
         boundary[rev] = boundary[rev][:, ::-1]
+    inner_note, inner_counts = None, (0, 0)
+    if not keep_inner and file_parts == 1 and part.max() > 0:
+        from .inner import inner_shells
+
+        with progress.step("looking for shells inside the body"):
+            main = face_part == 0
+            inside = inner_shells(np.where(main, part, -1), tri, np.linalg.norm(av, axis=1))
+            inside = inside[inside >= 0]
+        if len(inside):
+            drop = np.isin(part, inside) & main
+            inner_note = (f"left out {len(inside)} shell(s) inside the body ({int(drop.sum()):,} faces, "
+                          f"{float(np.linalg.norm(av[drop], axis=1).sum()):.3f} m2: seats, an engine bay or scan "
+                          "debris see no outside flow); --keep-inner keeps them")
+            keep = ~drop
+            f, face_part, part, tri, centroids, av = f[keep], face_part[keep], part[keep], tri[keep], centroids[keep], av[keep]
+            used = np.zeros(len(p), dtype=bool)
+            used[f.ravel()] = True
+            remap = np.cumsum(used) - 1
+            p, f = p[used], remap[f]
+            fa, fb, same_dir, boundary, bface = orient.edge_pairs(f)
+            boundary = boundary.copy()
+            warnings.append(inner_note)
+            inner_counts = (len(inside), int(drop.sum()))
     if split_shells and file_parts == 1:
         # One surface in the main file: each connected shell is a part of its own (a wing, a mirror, a wheel),
         # named by where it sits on the car; parts given with --part keep their names.
@@ -413,6 +441,9 @@ def load_body(
             closure=closure,
             orientable=orientable,
             volume_m3=body.volume() if watertight else None,
+            inner_shells=inner_counts[0],
+            inner_faces=inner_counts[1],
+            nonmanifold=nonmanifold_edges(f, p),
             source_frame=f"{length_unit}, up {up}, forward {forward}"
                          + ("; scene of parts, each with its own transform applied" if file_parts > 1 else "")
                          + ("; mirrored" if mirror_note else ""),

@@ -45,6 +45,11 @@ class MeshReport:
         Enclosed volume when watertight.
     part_list : list of dict
         Each part's ``name``, ``faces`` and ``area_m2``.
+    inner_shells, inner_faces : int
+        Shells found wholly inside the body and left out, and their faces.
+    nonmanifold : dict
+        Edges shared by three faces or more: ``count`` and, when there are
+        any, where (``centre_m``, ``bbox_min_m``, ``bbox_max_m``, vehicle frame).
     source_frame : str
         The file's unit and axes as read (e.g. ``"in, up +y, forward +z"``),
         and whether a scene's transforms were applied.
@@ -68,6 +73,9 @@ class MeshReport:
     volume_m3: float | None = None
     part_list: list = field(default_factory=list)
     source_frame: str = ""
+    inner_shells: int = 0
+    inner_faces: int = 0
+    nonmanifold: dict = field(default_factory=dict)
 
     def to_dict(self) -> dict:
         return asdict(self)
@@ -99,3 +107,29 @@ def boundary_loops(boundary: np.ndarray, vertices: np.ndarray) -> list[float]:
     cr = 0.5 * np.cross(vertices[boundary[:, 0]], vertices[boundary[:, 1]])
     va = np.stack([np.bincount(loop, weights=cr[:, k], minlength=len(uniq)) for k in range(3)], axis=1)
     return sorted(np.linalg.norm(va, axis=1).tolist(), reverse=True)
+
+
+def nonmanifold_edges(faces: np.ndarray, vertices: np.ndarray) -> dict:
+    """Edges used by three faces or more (overlapping or T-joined shells): how many and where.
+
+    Parameters
+    ----------
+    faces : (m, 3) int
+    vertices : (n, 3) float
+        Vehicle frame, m.
+
+    Returns
+    -------
+    dict
+        ``count``; with any, ``centre_m`` (their mean midpoint) and their bounding box.
+    """
+    from .grouping import group
+
+    e = np.sort(np.concatenate([faces[:, [0, 1]], faces[:, [1, 2]], faces[:, [2, 0]]]), axis=1)
+    _, first, _, counts = group(e[:, 0] * (int(faces.max()) + 1) + e[:, 1])
+    bad = e[first[counts > 2]]
+    if len(bad) == 0:
+        return {"count": 0}
+    mid = vertices[bad].mean(axis=1)
+    return {"count": int(len(bad)), "centre_m": mid.mean(axis=0).round(4).tolist(),
+            "bbox_min_m": mid.min(axis=0).round(4).tolist(), "bbox_max_m": mid.max(axis=0).round(4).tolist()}

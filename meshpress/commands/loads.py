@@ -50,7 +50,7 @@ def run(args) -> int:
         method=args.method, method_settings=method_settings(args), q=q, ref_area=args.ref_area,
         p_ref=args.p_ref, bands=None if args.no_bands else bands_measurement(args.sensor_accuracy),
         parts=parse_parts(args.part), merge_parts=args.merge_parts, mirror=args.mirror,
-        mirror_taps=args.mirror_taps, progress=progress,
+        mirror_taps=args.mirror_taps, keep_inner=args.keep_inner, progress=progress,
     )
     print(format_loads(run))
     extra = {} if run.bands is None else {"uncertainty": run.bands.to_dict()}

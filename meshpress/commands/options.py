@@ -29,6 +29,9 @@ def add_body_options(p):
     g.add_argument("--mirror-taps", action="store_true",
                    help="taps are on one side only: mirror them to the other side (side force and yaw are "
                         "then zero by assumption)")
+    g.add_argument("--keep-inner", action="store_true",
+                   help="keep shells that lie wholly inside the body (seats, engine bay, scan debris); by default "
+                        "they are found, reported and left out")
     g.add_argument("--merge-parts", action="store_true",
                    help="fit one field across all parts (by default no field crosses from one part to another)")
 
@@ -254,7 +257,7 @@ def load_inputs(args, progress, *, values: bool = True):
     body = load_body(args.mesh, length_unit=args.length_unit, up=args.up, forward=args.forward,
                      front_axle=args.front_axle, rear_axle=args.rear_axle, ground=args.ground,
                      parts=parse_parts(getattr(args, "part", ())), mirror=getattr(args, "mirror", None),
-                     progress=progress)
+                     keep_inner=getattr(args, "keep_inner", False), progress=progress)
     if not args.taps:
         return body, None
     table = read_taps(args.taps, pressure_unit=args.pressure_unit, values=values)

@@ -238,7 +238,7 @@ class LoadRun:
 def run_loads_parts(mesh, taps_file, *, length_unit="m", up="+z", forward="-x", front_axle=None, rear_axle=None,
                     ground=None, pressure_unit="Pa", max_tap_distance=TOL.max_tap_distance_m, method=DEFAULT_METHOD,
                     method_settings=None, q=None, ref_area=None, p_ref=0.0, bands=None, parts=None,
-                    merge_parts=False, mirror=None, mirror_taps=False, progress=None) -> LoadRun:
+                    merge_parts=False, mirror=None, mirror_taps=False, keep_inner=False, progress=None) -> LoadRun:
     """:func:`run_loads`, keeping the body, the projected taps and the fitted field.
 
     ``bands``: None for none, True for the bands with no stated measurement error (the fit's nugget still
@@ -251,7 +251,8 @@ def run_loads_parts(mesh, taps_file, *, length_unit="m", up="+z", forward="-x", 
     """
     progress = progress or Progress(enabled=False)
     body = load_body(mesh, length_unit=length_unit, up=up, forward=forward, front_axle=front_axle,
-                     rear_axle=rear_axle, ground=ground, parts=parts, mirror=mirror, progress=progress)
+                     rear_axle=rear_axle, ground=ground, parts=parts, mirror=mirror, keep_inner=keep_inner,
+                     progress=progress)
     # Start the frontal area and (for big bodies) the face clusters on the second core.
     body.prefetch(frontal_resolution=None if ref_area is not None else TOL.frontal_resolution_m,
                   cluster_cell=TOL.cluster_cell_m if body.n_faces > TOL.cluster_min_faces else None)

@@ -63,6 +63,11 @@ def format_result(r: LoadResult, bands=None) -> str:
             f"  mesh: {m['faces']:,} faces, {m['area_m2']:.2f} m2, "
             f"{'watertight' if m['watertight'] else 'open'}, {m['holes']} holes, closure {m['closure']:.2e}"
         )
+        nm = m.get("nonmanifold") or {}
+        if nm.get("count"):
+            lines.append(f"  non-manifold edges: {nm['count']:,} (shells overlapping or joined at an edge), around "
+                         f"x {nm['bbox_min_m'][0]:+.2f}..{nm['bbox_max_m'][0]:+.2f} m, "
+                         f"z {nm['bbox_min_m'][2]:+.2f}..{nm['bbox_max_m'][2]:+.2f} m")
         if m.get("source_frame"):
             lines.append(f"  file frame: {m['source_frame']} (into x rearward, y right, z up, m)")
     if bands is not None:
