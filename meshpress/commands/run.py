@@ -119,6 +119,9 @@ def format_test(result) -> str:
                        f"dCLF {_c(dd['CLF'], 0)}  dCLR {_c(dd['CLR'], 0)}  front share {fs}")
         big = sorted(d["taps"], key=lambda t: -abs(t["delta_cp"]))[:3]
         out.append("    largest tap changes: " + ", ".join(f"{t['name']} {t['delta_cp']:+.3f}" for t in big))
+        if d.get("parts"):
+            out.append("    by part: " + "; ".join(
+                f"{name} dCL {_c(v['CL'], 0).strip()} dCD {_c(v['CD'], 0).strip()}" for name, v in d["parts"].items()))
     if result.bands_seconds is not None:
         out += [""] + format_bands_summary(result)
     unit = s.speed_unit
