@@ -414,6 +414,17 @@ def load_body(
             lab[main] = shell_of
             lab[~main] = face_part[~main] - 1 + len(shell_names)
             face_part, names = lab, shell_names + names[1:]
+    overlaps = []
+    if len(names) > 1:
+        from .inner import part_overlaps
+
+        with progress.step("checking parts for overlaps"):
+            overlaps = part_overlaps(face_part, names, tri, np.linalg.norm(av, axis=1))
+        if overlaps:
+            warnings.append(f"parts reaching into {overlaps[0]['into']}: "
+                            + ", ".join(f"{o['part']} ({100 * o['inside_share']:.0f} % inside)" for o in overlaps)
+                            + "; the surface of each inside the other sees no air but is integrated (trim them where "
+                              "they meet if that matters)")
     body = Body(p, f, frame=frame, axles=axles, source=str(path), part_names=names, face_part=face_part)
     body._seed(triangles=tri, centroids=centroids, area_vectors=av)
     with progress.step("checking mesh"):
@@ -441,6 +452,7 @@ def load_body(
             closure=closure,
             orientable=orientable,
             volume_m3=body.volume() if watertight else None,
+            overlaps=overlaps,
             inner_shells=inner_counts[0],
             inner_faces=inner_counts[1],
             nonmanifold=nonmanifold_edges(f, p),

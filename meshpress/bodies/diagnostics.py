@@ -47,6 +47,8 @@ class MeshReport:
         Each part's ``name``, ``faces`` and ``area_m2``.
     inner_shells, inner_faces : int
         Shells found wholly inside the body and left out, and their faces.
+    overlaps : list of dict
+        Parts reaching into the largest part: ``part``, ``into``, ``inside_share``.
     nonmanifold : dict
         Edges shared by three faces or more: ``count`` and, when there are
         any, where (``centre_m``, ``bbox_min_m``, ``bbox_max_m``, vehicle frame).
@@ -75,6 +77,7 @@ class MeshReport:
     source_frame: str = ""
     inner_shells: int = 0
     inner_faces: int = 0
+    overlaps: list = field(default_factory=list)
     nonmanifold: dict = field(default_factory=dict)
 
     def to_dict(self) -> dict:

@@ -78,3 +78,36 @@ def inner_shells(component, triangles, areas, *, samples: int = 7, threshold: fl
         if np.all(winding_number(pts, main_tri) > threshold):
             found.append(comps[k])
     return np.asarray(found, dtype=component.dtype)
+
+
+def part_overlaps(face_part, names, triangles, areas, *, samples: int = 12, max_faces: int = 2_000_000) -> list:
+    """Parts that reach into the largest part (a wheel through the body's side, a stand through a wing).
+
+    The surface of the largest part inside another part sees no air, yet it is integrated; so is the other
+    part's inside the largest.  Each smaller part is tested at up to ``samples`` of its vertices (spread over
+    it) with the largest part's winding number.
+
+    Returns
+    -------
+    list of dict
+        ``part``, ``into`` (the largest part's name) and ``inside_share`` (share of the tested vertices inside).
+    """
+    a = np.bincount(face_part, areas, len(names))
+    main = int(np.argmax(a))
+    main_tri = triangles[face_part == main]
+    if len(main_tri) > max_faces or len(names) < 2:
+        return []
+    lo, hi = main_tri.reshape(-1, 3).min(axis=0), main_tri.reshape(-1, 3).max(axis=0)
+    out = []
+    for k, name in enumerate(names):
+        if k == main or not np.any(face_part == k):
+            continue
+        v = np.unique(triangles[face_part == k].reshape(-1, 3), axis=0)
+        box = np.all((v >= lo) & (v <= hi), axis=1)
+        if not box.any():
+            continue
+        pts = v[box][np.linspace(0, box.sum() - 1, min(samples, int(box.sum()))).astype(int)]
+        inside = float(np.mean(winding_number(pts, main_tri) > 0.5)) * box.sum() / len(v)
+        if inside > 0:
+            out.append({"part": name, "into": names[main], "inside_share": round(inside, 3)})
+    return out

@@ -102,7 +102,10 @@ def _read_trimesh(path: Path):
         raise InputError(f"mesh file {str(path)!r} could not be read as {path.suffix}: {_short(exc)}") from None
     if isinstance(loaded, trimesh.Scene):
         pieces = []
-        for node in loaded.graph.nodes_geometry:
+        # In the file's order (the order of its geometries), not the scene graph's own node order.
+        rank = {name: i for i, name in enumerate(loaded.geometry)}
+        nodes = sorted(loaded.graph.nodes_geometry, key=lambda n: (rank.get(loaded.graph[n][1], len(rank)), str(n)))
+        for node in nodes:
             transform, geom_name = loaded.graph[node]
             g = loaded.geometry.get(geom_name)
             if not isinstance(g, trimesh.Trimesh) or len(g.faces) == 0:

@@ -130,8 +130,8 @@ def compute_loads(
         bare = [p.name for p in result.parts if p.taps == 0]
         if bare:
             result.warnings.append(
-                f"no taps on {', '.join(bare)}: the pressure there is not measured but filled in by the field method "
-                "(the default: the model's prior shape, with a wide band); tap it or leave it out of the mesh")
+                f"no taps on {', '.join(bare)}: the pressure there is not measured but filled in by the field method, "
+                "and its figures have no band; tap it, or leave it out of the mesh")
     return result
 
 
@@ -280,7 +280,10 @@ def run_loads_parts(mesh, taps_file, *, length_unit="m", up="+z", forward="-x", 
         regions = with_parts(body, settings.pop("regions", None))
         if method == PosteriorField.name:
             settings.update(tap_var=None if meas is None else meas.tap_u**2, q=q)
-            field = RegionalField(method, regions, settings.pop("empty_value", None), settings)
+            # A part without taps is taken at free-stream pressure (Cp 0, gauge 0 Pa): a closed part then adds no
+            # force, rather than the nearest tap's reading spread over it (which made thrust on a wheel).
+            empty = settings.pop("empty_value", None)
+            field = RegionalField(method, regions, 0.0 if empty is None else empty, settings)
         else:
             field = make_field(method, regions=regions, **settings)
     else:

@@ -48,7 +48,19 @@ def format_result(r: LoadResult, bands=None) -> str:
     for name, val, unit, cname, cval in rows:
         lines.append(f"  {name:<29}{val:>12} {unit:<4}   {cname:<4}{cval:>8}"
                      + ("" if bands is None or cval == "n/a" else _band_text(bands, cname)))
-    lines.append(f"  {'front share of lift':<29}{_fmt(None if r.front_share is None else 100 * r.front_share, '.1f'):>12} %")
+    share = r.front_share
+    unresolved = False
+    if bands is not None and share is not None:
+        try:
+            unresolved = abs(r.CL) < 1.96 * bands.band("CL").u
+        except KeyError:
+            pass
+    if unresolved:
+        lines.append(f"  {'front share of lift':<29}{'n/a':>12}   (the lift is not resolved from zero: see CLF, CLR)")
+    elif share is not None and r.CLF is not None and abs(r.CL) < 0.05 * (abs(r.CLF) + abs(r.CLR)):
+        lines.append(f"  {'front share of lift':<29}{'n/a':>12}   (the total lift is near zero: see CLF and CLR)")
+    else:
+        lines.append(f"  {'front share of lift':<29}{_fmt(None if share is None else 100 * share, '.1f'):>12} %")
     if r.parts:
         lines += [""] + format_parts(r, bands)
     lines.append("")
