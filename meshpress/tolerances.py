@@ -38,6 +38,10 @@ class Tolerances:
         Warn of wrong axes when the body's extent along the forward axis is
         below this fraction of its width or height (a car's length is about
         twice its width; common practice).
+    max_tap_rows : int
+        A tap table of more rows is refused before it is read whole (100k taps
+        is far beyond any car test; a larger file is a wrong file, e.g. a
+        readings log given as the layout).
     """
 
     merge_digits: int = 6
@@ -50,6 +54,7 @@ class Tolerances:
     cluster_min_faces: int = 200_000
     cluster_cell_m: float = 0.02
     axis_check_ratio: float = 0.8
+    max_tap_rows: int = 100_000
 
 
 TOL = Tolerances()

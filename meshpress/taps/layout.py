@@ -18,6 +18,7 @@ import pandas as pd
 from ..errors import InputError
 from ..bodies.frame import parse_axis
 from .tables import SPREADSHEETS, read_table
+from ..tolerances import TOL
 from ..units import pressure_factor
 
 VALUE_KINDS = ("p", "cp")
@@ -80,8 +81,11 @@ def read_taps(path, *, pressure_unit: str = "Pa", values: bool = True) -> TapTab
     where = str(path)
     if not path.is_file():
         raise InputError(f"tap file {where!r} does not exist")
-    df = read_table(path, "tap table")
+    df = read_table(path, "tap table", max_rows=TOL.max_tap_rows)
     df.columns = [str(c).strip().lower() for c in df.columns]
+    twice = df.columns[df.columns.duplicated()]
+    if len(twice):
+        raise InputError(f"{where}: column {twice[0]!r} appears twice in the header (column names ignore case)")
     if df.empty:
         raise InputError(f"{where}: the tap table has no rows")
     missing = [c for c in ("tap", "x", "y", "z") if c not in df.columns]
@@ -141,7 +145,8 @@ def has_readings(path) -> bool:
     path = Path(path)
     if not path.is_file():
         raise InputError(f"tap file {str(path)!r} does not exist")
-    return any(str(c).strip().lower() in VALUE_KINDS for c in read_table(path, "tap table").columns)
+    table = read_table(path, "tap table", max_rows=TOL.max_tap_rows)
+    return any(str(c).strip().lower() in VALUE_KINDS for c in table.columns)
 
 
 def _row_numbers(path: Path, n: int) -> np.ndarray:

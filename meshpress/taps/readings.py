@@ -72,12 +72,16 @@ def _read_table(path) -> pd.DataFrame:
     return df
 
 
-def _numeric(df, col, where) -> np.ndarray:
+def _numeric(df, col, where, factor=1.0) -> np.ndarray:
+    """Column ``col`` as numbers times ``factor`` (a unit's), each finite, or an error naming the first bad cell."""
     num = pd.to_numeric(df[col], errors="coerce").to_numpy(dtype=float)
-    bad = np.flatnonzero(~np.isfinite(num))
+    with np.errstate(over="ignore"):
+        scaled = num * factor
+    bad = np.flatnonzero(~np.isfinite(scaled))
     if len(bad):
-        raise InputError(f"{where}, data row {bad[0] + 1}, column {col}: {df[col].iloc[bad[0]]!r} is not a number")
-    return num
+        what = "is not a number" if not np.isfinite(num[bad[0]]) else "is too large"
+        raise InputError(f"{where}, data row {bad[0] + 1}, column {col}: {df[col].iloc[bad[0]]!r} {what}")
+    return scaled
 
 
 def read_series(path, layout_names, *, fmt="auto", unit="Pa", time_column="time", q_column=None,
@@ -112,6 +116,8 @@ def read_series(path, layout_names, *, fmt="auto", unit="Pa", time_column="time"
     cols_lower = {c.lower(): c for c in df.columns}
     if fmt == "auto":
         fmt = "long" if ("tap" in cols_lower and "value" in cols_lower) else "wide"
+    elif fmt == "long" and not ("tap" in cols_lower and "value" in cols_lower):
+        raise InputError(f"{label}: long readings need columns tap and value (format = 'long')")
     specials = [c for c in (q_column, speed_column, ref_column) if c]
     if fmt == "long":
         df = _long_to_wide(df, cols_lower, time_column, label)
@@ -133,14 +139,14 @@ def read_series(path, layout_names, *, fmt="auto", unit="Pa", time_column="time"
                          + (f" ({len(missing) - 1} more)" if len(missing) > 1 else "")
                          + "; list broken taps in taps.exclude")
     fP = pressure_factor(unit)
-    p = np.column_stack([_numeric(df, c, label) for c in taps]) * fP if taps else np.zeros((len(df), 0))
+    p = np.column_stack([_numeric(df, c, label, fP) for c in taps]) if taps else np.zeros((len(df), 0))
     t = _numeric(df, time_column, label) if has_time else None
     if t is not None and len(t) > 1 and np.any(np.diff(t) <= 0):
         i = int(np.flatnonzero(np.diff(t) <= 0)[0]) + 2
         raise InputError(f"{label}, data row {i}, column {time_column}: time does not increase")
-    q = _numeric(df, q_column, label) * fP if q_column else None
-    ref = _numeric(df, ref_column, label) * fP if ref_column else None
-    speed = _numeric(df, speed_column, label) * speed_factor(speed_unit) if speed_column else None
+    q = _numeric(df, q_column, label, fP) if q_column else None
+    ref = _numeric(df, ref_column, label, fP) if ref_column else None
+    speed = _numeric(df, speed_column, label, speed_factor(speed_unit)) if speed_column else None
     return Series(t, p, taps, q, speed, ref, str(path))
 
 
@@ -149,6 +155,10 @@ def _long_to_wide(df, cols_lower, time_column, label) -> pd.DataFrame:
     df = df.copy()
     df[tap] = df[tap].astype(str).str.strip()
     if time_column in df.columns:
+        if (df[tap] == time_column).any():
+            i = int(np.flatnonzero((df[tap] == time_column).to_numpy())[0])
+            raise InputError(f"{label}, data row {i + 1}, column {tap}: a tap has the time column's name "
+                             f"{time_column!r}")
         dup = df.duplicated([time_column, tap])
         if dup.any():
             i = int(np.flatnonzero(dup.to_numpy())[0])
@@ -261,7 +271,8 @@ def steady_window(t: np.ndarray, x: np.ndarray, *, band: float = 0.03, min_durat
     t = np.asarray(t, float)
     x = np.asarray(x, float)
     dt = float(np.median(np.diff(t))) if len(t) > 1 else 1.0
-    xs = moving_average(x, max(1, int(round(smooth / dt)))) if smooth > 0 else x
+    n_smooth = smooth / dt  # samples; can exceed the record (or overflow) when the time steps are tiny
+    xs = moving_average(x, len(x) if not n_smooth < len(x) else max(1, int(round(n_smooth)))) if smooth > 0 else x
     level = float(np.median(np.abs(xs)))
     i, j = longest_band(xs, 2 * band * level)
     for _ in range(2):
