@@ -195,6 +195,7 @@ def read_layout(path, exclude=()) -> TapTable:
                     [table.sides[i] for i in keep], table.source)
 
 
+@np.errstate(over="ignore", invalid="ignore")  # overflow is checked on the means, with a message
 def reduce_run(run: Run, series: Series, rho: float, zero: Series | None = None) -> RunReading:
     """Reduce a run's samples to mean Cp per tap (window, zero, reference, statistics).
 
@@ -266,9 +267,12 @@ def reduce_run(run: Run, series: Series, rho: float, zero: Series | None = None)
     cp = pressure_coefficients(s.p, q, zero=zero_p, cp_ref=cp_ref)
     cps = tap_statistics(cp)
     ps = tap_statistics(s.p - (0 if zero_p is None else zero_p[None, :]))
+    q_mean = float(q.mean())
+    if not (np.isfinite(q_mean) and np.isfinite(cps.mean).all() and np.isfinite(ps.mean).all()):
+        raise InputError(f"{where}: readings or dynamic pressure too large to average (they overflow)")
     if zero is None:
         notes.append("no zero readings: offsets at rest not removed")
-    return RunReading(cp=cps.mean, cp_stats=cps, p_stats=ps, q_Pa=float(q.mean()),
+    return RunReading(cp=cps.mean, cp_stats=cps, p_stats=ps, q_Pa=q_mean,
                       q_std_Pa=float(q.std(ddof=1)) if len(q) > 1 else 0.0, window_s=win, samples=int(mask.sum()),
                       samples_total=n_total, cp_ref=float(np.mean(cp_ref)), rho=rho, zero_Pa=zero_p, notes=notes,
                       zero_se_Pa=zero_se)

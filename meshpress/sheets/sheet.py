@@ -52,7 +52,9 @@ class _Ctx:
         self.name = path.name
 
     def err(self, key: str, msg: str) -> InputError:
-        return InputError(f"{self.name}: {key}: {msg}")
+        text = f"{self.name}: {key}: {msg}"
+        # One line, whatever the sheet's keys and strings hold (a quoted TOML key may contain a line break).
+        return InputError(text.replace("\r", "\\r").replace("\n", "\\n"))
 
 
 def read_sheet(path) -> Sheet:
@@ -200,10 +202,17 @@ def _file(cx, d, key, where, base, required=False) -> Path | None:
     s = _string(cx, d, key, where, required=required)
     if s is None:
         return None
-    p = Path(s).expanduser()
+    try:
+        p = Path(s).expanduser()
+    except RuntimeError:  # ~user of no known user
+        raise cx.err(f"{where}.{key}", f"file {s!r}: no home folder for its '~'") from None
     p = p if p.is_absolute() else base / p
+    if p.is_dir():
+        raise cx.err(f"{where}.{key}", f"{s!r} is a folder, not a file")
     if not p.is_file():
         raise cx.err(f"{where}.{key}", f"file {s!r} does not exist (looked for {p})")
+    if p.resolve() == cx.path.resolve():
+        raise cx.err(f"{where}.{key}", f"{s!r} is the test sheet itself")
     return p
 
 
@@ -350,7 +359,9 @@ def _bands(cx, d) -> BandSettings:
             try:
                 pct = float(v.strip()[:-1])
             except ValueError:
-                raise cx.err(key, f"{v!r} is not a percentage like '0.25 %'") from None
+                pct = math.nan
+            if not math.isfinite(pct):
+                raise cx.err(key, f"{v!r} is not a percentage like '0.25 %'")
             if "full_scale" not in d:
                 raise cx.err(key, "a percentage needs uncertainty.full_scale (the sensors' range, e.g. '2500 Pa')")
             fs = _pressure_Pa(cx, d["full_scale"], f"{where}.full_scale")
@@ -381,9 +392,10 @@ def _speeds(cx, d):
             unit = u if isinstance(d[k], str) else "m/s"
     if not vals["to"] > vals["from"]:
         raise cx.err("speeds.to", "must be above speeds.from")
-    n = int(math.floor((vals["to"] - vals["from"]) / vals["step"] + 1e-9)) + 1
+    steps = (vals["to"] - vals["from"]) / vals["step"]  # inf for a tiny step: compare before int()
+    n = int(math.floor(steps + 1e-9)) + 1 if steps < 1000 else 1001
     if n > 1000:
-        raise cx.err("speeds.step", f"gives {n} speeds; use a larger step")
+        raise cx.err("speeds.step", "gives more than 1000 speeds; use a larger step")
     return tuple(vals["from"] + i * vals["step"] for i in range(n)), unit
 
 
