@@ -184,3 +184,23 @@ def test_ground_height_given(small_car):
     path, v, f = small_car
     b = meshpress.load_body(path, ground=-0.1)
     assert b.vertices[:, 2].min() == pytest.approx(0.1 + v[:, 2].min(), abs=1e-12)
+
+
+def test_stl_headers_that_lie_or_ask_too_much_are_refused_up_front(tmp_path, cli):
+    # Binary STL layout (80-byte header, uint32 count, 50 bytes per face: the format's definition): a file that
+    # declares 10^7 faces in 100 bytes is truncated or lies; one that declares more than the limit is refused
+    # before any reading, with the limit in the message.
+    import struct
+
+    from meshpress.bodies.readers import MAX_FACES
+
+    lie = tmp_path / "lie.stl"
+    lie.write_bytes(b"\0" * 80 + struct.pack("<I", 10**7) + b"\0" * 16)
+    big = tmp_path / "big.stl"
+    big.write_bytes(b"\0" * 80 + struct.pack("<I", MAX_FACES + 1) + b"\0" * 50)
+    taps = tmp_path / "t.csv"
+    taps.write_text("tap,x,y,z,cp\nA,0,0,0,0.1\n")
+    for f, words in ((lie, "holds room for 0"), (big, f"limit of {MAX_FACES:,}")):
+        r = cli("loads", f, taps, "--quiet")
+        assert r.returncode == 2 and words in r.stderr and "Traceback" not in r.stderr, r.stderr
+        assert len(r.stderr.strip().splitlines()) == 1

@@ -17,6 +17,39 @@ from ..errors import InputError
 
 TRIMESH_SUFFIXES = {".stl", ".obj", ".ply", ".off", ".glb", ".gltf", ".3mf"}
 
+#: Faces a body may have: a bigger mesh is refused before it is read (20 M faces is four times a phone scan of a
+#: whole car; reading one takes about 2 GB per 5 M faces, so the limit keeps a 24 GB machine out of swap).
+MAX_FACES = 20_000_000
+
+
+def check_stl_size(path: Path, max_faces: int = MAX_FACES) -> None:
+    """Refuse a binary STL that declares too many faces, or more than the file holds, before reading it.
+
+    A binary STL is an 80-byte header, a uint32 face count and 50 bytes per face (the format's definition);
+    a file whose size fits that layout for no count is left to the reader (ASCII STL).
+    """
+    import struct
+
+    size = path.stat().st_size
+    if size < 84:
+        return
+    with open(path, "rb") as fh:
+        head = fh.read(84)
+    (n,) = struct.unpack("<I", head[80:84])
+    room = (size - 84) // 50
+    ascii_like = head[:5].lower() == b"solid" and size != 84 + 50 * n
+    if ascii_like:
+        if size > 250 * max_faces:  # an ASCII facet takes about 250 bytes
+            raise InputError(f"mesh file {str(path)!r} is {size / 1e9:.1f} GB of text STL: more than the "
+                             f"{max_faces:,}-face limit; decimate it first")
+        return
+    if n > max_faces:
+        raise InputError(f"mesh file {str(path)!r} declares {n:,} faces: more than the limit of {max_faces:,}; "
+                         "decimate it first (a scan of a car needs well under 5 M)")
+    if n > room:
+        raise InputError(f"mesh file {str(path)!r} declares {n:,} faces but holds room for {room:,}: the file is "
+                         "truncated or its header is wrong")
+
 
 def read_surface(path: str | Path) -> tuple[np.ndarray, np.ndarray, int]:
     """Read a surface mesh file as one surface.
@@ -62,6 +95,8 @@ def read_parts(path: str | Path) -> tuple[np.ndarray, np.ndarray, np.ndarray, li
     if not path.is_file():
         raise InputError(f"mesh file {str(path)!r} does not exist")
     suffix = path.suffix.lower()
+    if suffix == ".stl":
+        check_stl_size(path)
     if suffix in TRIMESH_SUFFIXES:
         pieces = _read_trimesh(path)
     else:
@@ -77,6 +112,9 @@ def read_parts(path: str | Path) -> tuple[np.ndarray, np.ndarray, np.ndarray, li
     f = np.vstack(fs) if fs else np.zeros((0, 3), dtype=np.int64)
     if len(f) == 0:
         raise InputError(f"mesh file {str(path)!r} holds no triangles or quads")
+    if len(f) > MAX_FACES:
+        raise InputError(f"mesh file {str(path)!r} has {len(f):,} faces: more than the limit of {MAX_FACES:,}; "
+                         "decimate it first")
     if not np.all(np.isfinite(v)):
         raise InputError(f"mesh file {str(path)!r} has vertices that are NaN or infinite")
     return v, f, np.concatenate(labels), names
