@@ -485,3 +485,25 @@ def test_default_method_runs_average_to_their_configuration(tmp_path):
             runs_mean = np.mean([getattr(r.load, k) for r in c.runs])
             assert runs_mean == pytest.approx(getattr(c.load, k), rel=1e-9, abs=1e-12)
             assert c.bands.band(k).value == pytest.approx(getattr(c.load, k), rel=1e-7, abs=1e-9)
+
+
+@pytest.mark.slow
+def test_run_report_puts_every_configuration_and_change_on_one_page(tmp_path):
+    # The page carries the same figures as the results folder (one model: each configuration's figure is its band's
+    # centre), the change with its band, one change map per comparison and the speed plot; it is self-contained
+    # (a Content-Security-Policy that allows no fetch, images as data URIs: HTML Living Standard, CSP Level 3).
+    path, _ = make_noisy_test(tmp_path, "[uncertainty]\npatches = 300\n")
+    out = tmp_path / "res"
+    r = run_cli("run", path, "--out", out, "--report", out, "--quiet", "--no-plot")
+    assert r.returncode == 0, r.stderr
+    page = (out / "report.html").read_text()
+    assert "default-src 'none'" in page and "http://" not in page and "https://" not in page
+    for name in ("plain", "shifted"):
+        conf = json.loads((out / f"configurations/{name}.json").read_text())
+        u = conf["uncertainty"]
+        assert f"{conf['CL']:+.3f} &plusmn; {u['CL_u']:.3f}" in page
+    comp = json.loads((out / "comparisons/plain__vs__shifted.json").read_text())["change"]["figures"]["CL"]
+    assert f"{comp['value']:+.3f} &plusmn; {comp['u']:.3f}" in page
+    assert page.count('alt="change of Cp: shifted vs plain"') == 1
+    bad = run_cli("run", path, "--out", tmp_path / "r2", "--report", path, "--quiet")
+    assert bad.returncode == 2 and "is a file" in bad.stderr

@@ -6,6 +6,8 @@ import io
 import json
 from pathlib import Path
 
+from ..errors import InputError
+
 
 def add_parser(sub):
     p = sub.add_parser("run", help="process a whole test described by a test sheet (TOML)",
@@ -21,6 +23,9 @@ def add_parser(sub):
                         "on by default with the default field method; same as [uncertainty] bands = true)")
     p.add_argument("--no-bands", action="store_true",
                    help="skip the bands (faster; same as [uncertainty] bands = false)")
+    p.add_argument("--report", metavar="DIR", help="also write one page with every configuration side by side, "
+                   "the changes with their bands, the change of Cp on the body and the loads over speed "
+                   "(DIR/report.html; DIR may be the results folder)")
     p.add_argument("--quiet", action="store_true", help="no progress display")
     p.set_defaults(run=run)
     return p
@@ -216,11 +221,19 @@ def run(args) -> int:
     out = Path(args.out) if args.out else sheet.path.parent / f"{sheet.path.stem}-results"
     inputs = sheet.input_files()
     check_output_dir(out, inputs)  # before the work, so a bad --out fails fast
+    if args.report and Path(args.report).exists() and not Path(args.report).is_dir():
+        raise InputError(f"--report {args.report!r} is a file; give a folder to write the report into")
     progress = Progress(enabled=False if args.quiet else None)
     result = process_sheet(sheet, progress, bands=True if args.bands else (False if args.no_bands else None))
     print(format_test(result))
     files = result_files(result, plot=not args.no_plot)
     write_folder(out, files, inputs=inputs, manifest={"sheet": str(sheet.path)})
+    if args.report:
+        from ..outputs.testreport import write_test_report
+
+        with progress.step("writing the report"):
+            page = write_test_report(result, args.report, protect=inputs)
+        print(f"\n  wrote {page} (open it in a browser)")
     print(f"\n  wrote {out}/ ({len(files) + 1} files: summary.csv, runs/, configurations/, comparisons/"
           + (", speeds/" if any(k.startswith("speeds/") for k in files) else "")
           + (", bands.csv" if "bands.csv" in files else "") + ")")

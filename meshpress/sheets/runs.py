@@ -355,13 +355,21 @@ def process_sheet(sheet: Sheet, progress: Progress | None = None, *, bands: bool
         with progress.step("covariance patches"):
             carrier = Carrier(body, st.patches, progress=progress)
 
+    # A body of parts (a scene, or shells): no field crosses from one part to another.  Runs share one carrier,
+    # so the default model keeps the parts as independent regions of one fit (not one fit per part).
+    regions = None
+    if len(body.part_names) > 1:
+        from ..bodies.regions import with_parts
+
+        regions = with_parts(body, None)
+
     def loads(cp, q, tap_var=None, like=None):
         if carrier is not None:
             # The bands' model with the bands' settings, on the one carrier; tap_var makes it the bands' very fit.
             fld = PosteriorField(kernel=st.kernel, orientation=st.orientation, patches=st.patches, carrier=carrier,
-                                 tap_var=tap_var, like=like, **sheet.method_settings)
+                                 tap_var=tap_var, like=like, regions=regions, **sheet.method_settings)
         else:
-            fld = make_field(sheet.method, **sheet.method_settings)
+            fld = make_field(sheet.method, regions=regions, **sheet.method_settings)
         r = compute_loads(body, taps.with_values(cp), fld, q=q, ref_area=ref_area)
         r.ref_area_source = area_src
         r.inputs["sheet"] = str(sheet.path)
@@ -544,4 +552,9 @@ def compare_loads(a: LoadResult, b: LoadResult) -> dict:
         d["face_delta_cp"] = dc
         d["faces"] = {"count": len(dc), "min_delta_cp": float(dc.min()), "max_delta_cp": float(dc.max()),
                       "mean_abs_delta_cp": float(np.abs(dc).mean())}
+    if a.parts and b.parts and [p.name for p in a.parts] == [p.name for p in b.parts]:
+        # What the change did to each part: to the wing itself, and to the body around it.
+        d["parts"] = {pa.name: {k: None if getattr(pa.loads, k) is None or getattr(pb.loads, k) is None
+                                else getattr(pb.loads, k) - getattr(pa.loads, k) for k in DIFF_FIGURES}
+                      for pa, pb in zip(a.parts, b.parts)}
     return d
