@@ -141,6 +141,7 @@ class Run:
     air: Air | None = None
     notes: str = ""
     ignore_columns: tuple = ()
+    align: bool = True
 
     @property
     def where(self) -> str:
@@ -150,6 +151,34 @@ class Run:
     def q_from_speed(self) -> bool:
         """True when q comes from a speed rather than a measured dynamic pressure."""
         return self.speed_mps is not None or self.speed_column is not None
+
+
+@dataclass(frozen=True)
+class TubeGroup:
+    """The ``[[tubing]]`` of a group of taps: their tubes' length and bore and the sensors' volume.
+
+    Attributes
+    ----------
+    taps : tuple of str
+        Tap names or shell-style patterns (``"CT*"``).
+    length_m, bore_m : float
+        Tube length and inner diameter, m.
+    sensor_volume_m3 : float
+        Air volume of each sensor and its fittings, m3.
+    where : str
+        The sheet key, for messages.
+    """
+
+    taps: tuple
+    length_m: float
+    bore_m: float
+    sensor_volume_m3: float = 0.0
+    where: str = "tubing"
+
+    def covers(self, name: str) -> bool:
+        from fnmatch import fnmatchcase
+
+        return any(fnmatchcase(name, p) for p in self.taps)
 
 
 @dataclass
@@ -169,6 +198,7 @@ class Sheet:
     compare: list = field(default_factory=list)
     notes: str = ""
     bands: BandSettings = BandSettings()
+    tubing: tuple = ()
 
     @property
     def configurations(self) -> list:

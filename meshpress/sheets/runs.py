@@ -196,7 +196,30 @@ def read_layout(path, exclude=()) -> TapTable:
 
 
 @np.errstate(over="ignore", invalid="ignore")  # overflow is checked on the means, with a message
-def reduce_run(run: Run, series: Series, rho: float, zero: Series | None = None) -> RunReading:
+def tubing_warnings(tubing, taps, window_s: float, rho: float, *, settlings: float = 5.0) -> list:
+    """A warning per tube group whose settling time is more than 1/``settlings`` of the steady window.
+
+    The window must hold several settling times of the slowest tube for its mean to be the steady pressure
+    (common practice: five); the settling time is to 1 % of a step (:mod:`meshpress.taps.tubing`).
+    """
+    from ..taps.tubing import tube_response
+
+    out = []
+    for g in tubing:
+        names = [t for t in taps if g.covers(t)]
+        if not names:
+            continue
+        r = tube_response(g.length_m, g.bore_m, sensor_volume_m3=g.sensor_volume_m3)
+        ts = r.settling_s()
+        if settlings * ts > window_s:
+            shown = ", ".join(names[:4]) + (f" and {len(names) - 4} more" if len(names) > 4 else "")
+            out.append(f"tubing: {g.where} ({g.length_m:g} m of {g.bore_m * 1000:g} mm bore; taps {shown}) settles in "
+                       f"about {ts:.2f} s (time constant {r.tau_s:.2f} s), more than a fifth of the {window_s:.1f} s "
+                       "steady window: its mean is still moving; hold the speed longer or use a shorter, wider tube")
+    return out
+
+
+def reduce_run(run: Run, series: Series, rho: float, zero: Series | None = None, tubing=()) -> RunReading:
     """Reduce a run's samples to mean Cp per tap (window, zero, reference, statistics).
 
     Parameters
@@ -209,6 +232,14 @@ def reduce_run(run: Run, series: Series, rho: float, zero: Series | None = None)
     zero : Series, optional
         Readings at rest; their per-tap mean is subtracted (from q and the
         reference channel too, when the zero file has them).
+    tubing : sequence of TubeGroup
+        The sheet's ``[[tubing]]``: a warning when a tube settles too slowly
+        for the steady window.
+
+    With ``run.align`` (the default) and both taps and q (or speed) logged
+    with times, the tap channels are shifted by their lag behind q found by
+    cross-correlation (:func:`meshpress.taps.tubing.alignment_lag`) when the
+    correlation is clear (above 0.5) and the lag at least two samples.
     """
     where = f"{run.where} ({run.name})"
     notes = []
@@ -230,6 +261,20 @@ def reduce_run(run: Run, series: Series, rho: float, zero: Series | None = None)
         q = 0.5 * rho * series.speed ** 2
     else:
         q = np.full(n_total, 0.5 * rho * run.speed_mps ** 2)
+    lag = None
+    if run.align and series.time is not None and (run.q_column or run.speed_column) and n_total >= 32:
+        from ..taps.tubing import alignment_lag, shift
+
+        ref = series.q if run.q_column else series.speed
+        lag, peak = alignment_lag(series.time, ref, series.p)
+        dt = float(np.median(np.diff(series.time)))
+        if peak > 0.5 and abs(lag) >= 2 * dt:
+            # The taps lag (or lead) the q channel: move them back so each sample's Cp divides by its own q.
+            series = replace(series, p=shift(series.time, series.p, lag))
+            notes.append(f"tap channels aligned to {'q' if run.q_column else 'speed'}: they lagged by {lag:+.2f} s "
+                         f"(cross-correlation {peak:.2f})")
+        else:
+            lag = 0.0
     window = run.window
     mask = np.ones(n_total, bool)
     win = None
@@ -272,6 +317,8 @@ def reduce_run(run: Run, series: Series, rho: float, zero: Series | None = None)
         raise InputError(f"{where}: readings or dynamic pressure too large to average (they overflow)")
     if zero is None:
         notes.append("no zero readings: offsets at rest not removed")
+    if tubing and win is not None:
+        notes += tubing_warnings(tubing, series.taps, win[1] - win[0], rho)
     return RunReading(cp=cps.mean, cp_stats=cps, p_stats=ps, q_Pa=q_mean,
                       q_std_Pa=float(q.std(ddof=1)) if len(q) > 1 else 0.0, window_s=win, samples=int(mask.sum()),
                       samples_total=n_total, cp_ref=float(np.mean(cp_ref)), rho=rho, zero_Pa=zero_p, notes=notes,
@@ -378,7 +425,7 @@ def process_sheet(sheet: Sheet, progress: Progress | None = None, *, bands: bool
     runs = []
     for run, series, zero in progress.track(data, len(data), "runs"):
         rho = rho0 if run.air is None else run.air.density(f"{sheet.path.name}: {run.where}.air")[0]
-        reading = named(reduce_run, run, series, rho, zero)
+        reading = named(reduce_run, run, series, rho, zero, sheet.tubing)
         runs.append(RunResult(run, reading, None))
 
     configs = {}

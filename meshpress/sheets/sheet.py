@@ -16,7 +16,7 @@ from pathlib import Path
 from ..errors import InputError
 from ..bodies.frame import parse_axis
 from ..tolerances import TOL
-from .model import Air, BandSettings, Reference, Run, Sheet, StaticLoad, Vehicle
+from .model import Air, BandSettings, Reference, Run, Sheet, StaticLoad, TubeGroup, Vehicle
 from ..units import (LENGTH_UNITS, PRESSURE_UNITS, SPEED_UNITS, length_factor, parse_quantity, pressure_factor,
                     speed_factor)
 
@@ -25,11 +25,11 @@ G_N = 9.80665  # m/s2, standard gravity (exact, CGPM 1901), to turn corner weigh
 RUN_KEYS = {
     "name", "configuration", "readings", "format", "unit", "time_column", "speed", "speed_column",
     "speed_unit", "q", "q_column", "window", "steady_band_percent", "steady_min_s", "steady_smooth_s",
-    "zero", "reference", "direction", "air", "notes", "ignore_columns",
+    "zero", "reference", "direction", "air", "notes", "ignore_columns", "align",
 }
 #: Keys of [defaults]: every run key that makes sense for several runs at once.
 DEFAULT_KEYS = RUN_KEYS - {"name", "configuration", "readings", "zero", "direction", "notes"}
-TOP_KEYS = {"title", "notes", "vehicle", "taps", "air", "field", "defaults", "runs", "speeds", "compare",
+TOP_KEYS = {"title", "notes", "vehicle", "taps", "air", "field", "defaults", "runs", "speeds", "compare", "tubing",
             "uncertainty"}
 VEHICLE_KEYS = {"mesh", "length_unit", "up", "forward", "front_axle", "rear_axle", "ground", "reference_area_m2",
                 "static_load"}
@@ -146,9 +146,11 @@ def read_sheet(path) -> Sheet:
     if not isinstance(title, str):
         raise cx.err("title", "must be a string")
     bands = _bands(cx, _table(cx, doc, "uncertainty"))
+    tubing = _tubing(cx, doc.get("tubing", []), vehicle.length_unit)
     return Sheet(path=path, title=title, vehicle=vehicle, layout=layout, air=air, runs=runs, max_tap_distance_m=max_d,
                  exclude=tuple(exclude), method=method, method_settings=settings, speeds_mps=speeds,
-                 speed_unit=speed_unit, compare=compare, notes=str(doc.get("notes", "")), bands=bands)
+                 speed_unit=speed_unit, compare=compare, notes=str(doc.get("notes", "")), bands=bands,
+                 tubing=tubing)
 
 
 # -- pieces ----------------------------------------------------------------------------------------
@@ -463,8 +465,12 @@ def _run(cx, i, d, base, own_keys) -> Run:
     ignore = d.get("ignore_columns", [])
     if not isinstance(ignore, list) or not all(isinstance(c, str) for c in ignore):
         raise cx.err(f"{where}.ignore_columns", "must be a list of column names")
+    align = d.get("align", True)
+    if not isinstance(align, bool):
+        raise cx.err(f"{where}.align", f"{align!r} must be true or false")
     return Run(i, name, config, readings, fmt, unit, time_column, speed, speed_column, speed_unit, q, q_column,
-               window, band, min_s, smooth, zero, reference, direction, air, str(d.get("notes", "")), tuple(ignore))
+               window, band, min_s, smooth, zero, reference, direction, air, str(d.get("notes", "")), tuple(ignore),
+               align)
 
 
 def _reference(cx, v, key) -> Reference:
@@ -484,3 +490,33 @@ def _reference(cx, v, key) -> Reference:
             raise cx.err(f"{key}.cp", f"{cp:g} is not a plausible pressure coefficient")
         return Reference(port, cp, None)
     return Reference(port, None, _string(cx, v, "column", key))
+
+
+TUBING_KEYS = {"taps", "length", "bore", "sensor_volume_mm3"}
+
+
+def _tubing(cx, doc, length_unit) -> tuple:
+    """``[[tubing]]`` tables -> TubeGroups (lengths with units, default the vehicle's length unit)."""
+    if not isinstance(doc, list):
+        raise cx.err("tubing", "must be an array of tables ([[tubing]])")
+    out = []
+    for i, d in enumerate(doc, start=1):
+        key = f"tubing[{i}]"
+        if not isinstance(d, dict):
+            raise cx.err(key, "must be a table with taps, length and bore")
+        _check_keys(cx, d, TUBING_KEYS, key)
+        taps = d.get("taps")
+        if isinstance(taps, str):
+            taps = [taps]
+        if not isinstance(taps, list) or not taps or not all(isinstance(t, str) and t for t in taps):
+            raise cx.err(f"{key}.taps", "must be a list of tap names or patterns like \"CT*\"")
+        for k in ("length", "bore"):
+            if k not in d:
+                raise cx.err(f"{key}.{k}", "is missing (a length, e.g. \"2.5 m\" or \"1.6 mm\")")
+        length = _length_m(cx, d["length"], length_unit, f"{key}.length")
+        bore = _length_m(cx, d["bore"], length_unit, f"{key}.bore")
+        if bore >= length:
+            raise cx.err(f"{key}.bore", "is not smaller than the tube's length: check the units")
+        vol = _number(cx, d, "sensor_volume_mm3", key, default=0.0, nonneg=True) * 1e-9
+        out.append(TubeGroup(tuple(taps), length, bore, vol, key))
+    return tuple(out)
