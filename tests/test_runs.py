@@ -402,7 +402,7 @@ def test_sheet_sensor_accuracy_is_common_to_a_configurations_runs(tmp_path):
     assert sheet.bands.sensor_u_Pa == pytest.approx(3.0 / np.sqrt(3)) and sheet.bands.enabled is None
     res = process_sheet(sheet, bands=False)
     assert res.changes == [] and res.configurations["plain"].bands is None
-    from meshpress.sheets.runs import configuration_errors
+    from meshpress.sheets.bands import configuration_errors
 
     e = configuration_errors(res.configurations["plain"].runs, sheet.bands.sensor_u_Pa)
     assert np.allclose(e.systematic_u, 3.0 / np.sqrt(3) / 600.0)

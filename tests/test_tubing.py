@@ -5,7 +5,8 @@ import math
 import numpy as np
 import pytest
 
-from meshpress.sheets.runs import reduce_run, tubing_warnings
+from meshpress.sheets.runs import reduce_run
+from meshpress.taps.tubing import tubing_warnings
 from meshpress.sheets.sheet import Run, TubeGroup
 from meshpress.taps.readings import Series
 from meshpress.taps.tubing import alignment_lag, tube_response

@@ -13,8 +13,9 @@ from meshpress.fields import make_field
 from meshpress.bands.kriging import SurfaceGP
 from meshpress.bands.patches import Carrier
 from meshpress.taps.projection import ProjectedTaps, nearest_on_faces
+from meshpress.bands.tapweights import generic_tap_weights, rbf_tap_weights
 from meshpress.bands.uncertainty import (K95, Measurement, compute_uncertainty, difference_u, figure_face_weights,
-                                   generic_tap_weights, measurement_var, rbf_tap_weights, report_numbers, sensor_u)
+                                   measurement_var, report_numbers, sensor_u)
 
 from conftest import icosphere
 

@@ -107,3 +107,24 @@ def alignment_lag(t: np.ndarray, reference: np.ndarray, signals: np.ndarray, *, 
 def shift(t: np.ndarray, signals: np.ndarray, lag_s: float) -> np.ndarray:
     """The signals moved earlier by ``lag_s`` (linear interpolation; ends held)."""
     return np.column_stack([np.interp(t + lag_s, t, signals[:, j]) for j in range(signals.shape[1])])
+
+
+def tubing_warnings(tubing, taps, window_s: float, rho: float, *, settlings: float = 5.0) -> list:
+    """A warning per tube group whose settling time is more than 1/``settlings`` of the steady window.
+
+    The window must hold several settling times of the slowest tube for its mean to be the steady pressure
+    (common practice: five); the settling time is to 1 % of a step (:mod:`meshpress.taps.tubing`).
+    """
+    out = []
+    for g in tubing:
+        names = [t for t in taps if g.covers(t)]
+        if not names:
+            continue
+        r = tube_response(g.length_m, g.bore_m, sensor_volume_m3=g.sensor_volume_m3)
+        ts = r.settling_s()
+        if settlings * ts > window_s:
+            shown = ", ".join(names[:4]) + (f" and {len(names) - 4} more" if len(names) > 4 else "")
+            out.append(f"tubing: {g.where} ({g.length_m:g} m of {g.bore_m * 1000:g} mm bore; taps {shown}) settles in "
+                       f"about {ts:.2f} s (time constant {r.tau_s:.2f} s), more than a fifth of the {window_s:.1f} s "
+                       "steady window: its mean is still moving; hold the speed longer or use a shorter, wider tube")
+    return out
