@@ -1,6 +1,7 @@
 """Coverage benchmark of the uncertainty bands on known-truth cases.
 
-For each case (hemisphere, elliptic wing, car-like body; see truth_cases.py)
+For each case (hemisphere, elliptic wing, car-like body, and the panel-method truths panel_car and
+panel_car_yaw5, which also score CS; see truth_cases.py)
 and each of N random and N practical tap layouts, the taps read the exact Cp
 plus Gaussian noise of standard deviation U_TAP (stated to the model as the
 per-tap uncertainty), the kriging estimate and its band are computed, and the
@@ -45,7 +46,13 @@ from meshpress.bands.uncertainty import K95, Measurement, compute_uncertainty, f
 
 U_TAP = 0.005  # Cp: about 2.4 Pa at 100 km/h
 FIGS = ("CL", "CD", "CLF", "CLR")
-N_TAPS = {"hemisphere": 36, "wing": 48, "wing_high": 48, "car": 57}
+N_TAPS = {"hemisphere": 36, "wing": 48, "wing_high": 48, "car": 57, "panel_car": 57, "panel_car_yaw5": 57}
+CAR_LIKE = {"car", "panel_car", "panel_car_yaw5"}  # practical layouts: the sample's one design, jittered
+
+
+def case_figures(case):
+    """Figures scored: the panel truths add the side force coefficient (zero by symmetry, or at yaw not)."""
+    return FIGS + ("CS",) if case.startswith("panel_") else FIGS
 
 
 def run_case(case, n_layouts, n_patches, rng, kernel="auto", trend=None, regions=None, orientation=False,
@@ -83,7 +90,7 @@ def run_case(case, n_layouts, n_patches, rng, kernel="auto", trend=None, regions
                 k = "stagnation prior kept" if r.gp.trend_mean_used_ else "stagnation prior dropped"
                 chosen[k] = chosen.get(k, 0) + 1
             times.append(time.perf_counter() - t)
-            for f in FIGS:
+            for f in case_figures(case):
                 b = r.band(f)
                 rows.append(dict(layout=kind, figure=f, err=b.value - truth[f], u=b.u,
                                  rbf_err=b.field_value - truth[f]))
@@ -101,10 +108,10 @@ def clopper_pearson(k, n, level=0.95):
     return [lo, hi]
 
 
-def summarise(rows, key="err"):
+def summarise(rows, key="err", figs=FIGS):
     out = {}
     for layout in ("random", "practical", "all"):
-        for f in FIGS + ("all",):
+        for f in tuple(figs) + ("all",):
             sel = [r for r in rows if (layout == "all" or r["layout"] == layout) and (f == "all" or r["figure"] == f)]
             e = np.array([r[key] for r in sel])
             u = np.array([r["u"] for r in sel])
@@ -139,11 +146,12 @@ def main():
     for case in cases:
         rows, tc_s, t_med, truth, chosen = run_case(case, n, n_patches, rng, kernel, trend, regions, orientation, okernel,
                                                    stagnation, practical, anisotropy)
-        report[case] = dict(kriging=summarise(rows), rbf_with_kriging_band=summarise(rows, "rbf_err"),
+        figs = case_figures(case)
+        report[case] = dict(kriging=summarise(rows, figs=figs), rbf_with_kriging_band=summarise(rows, "rbf_err", figs),
                             carrier_s=tc_s, median_band_s=t_med, truth={k: float(v) for k, v in truth.items()},
                             kernels_chosen=chosen)
         print(f"\n== {case}: carrier {tc_s:.1f} s, median band {t_med:.2f} s, kernels {chosen}, truth "
-              + ", ".join(f"{k} {truth[k]:+.4f}" for k in FIGS))
+              + ", ".join(f"{k} {truth[k]:+.4f}" for k in figs))
         for est in ("kriging", "rbf_with_kriging_band"):
             print(f"  estimator {est}")
             for k, v in report[case][est].items():
@@ -153,7 +161,7 @@ def main():
     tag = (("" if regions is None else "_regions-" + regions.replace(";", "+")) + ("_orientation" if orientation else "")
            + ("" if okernel == "se" or not orientation else "-" + okernel)
            + ("" if not stagnation or trend != "newtonian" else "_stagnation" + ("-auto" if stagnation == "auto" else ""))
-           + ("" if practical == "jittered" or cases == ["car"] else "_practical-" + practical)
+           + ("" if practical == "jittered" or set(cases) <= CAR_LIKE else "_practical-" + practical)
            + ("_anisotropy" if anisotropy else ""))
     from results import record
 
