@@ -15,10 +15,9 @@ from ..errors import InputError
 
 def boundary_vertices(faces: np.ndarray) -> np.ndarray:
     """Indices of the vertices on edges used by one face only (the mesh's open edges)."""
-    e = np.sort(np.concatenate([faces[:, [0, 1]], faces[:, [1, 2]], faces[:, [2, 0]]]), axis=1)
-    _, inv, counts = np.unique(e, axis=0, return_inverse=True, return_counts=True)
-    once = counts[inv.ravel()] == 1
-    return np.unique(e[once])
+    from .orient import edge_pairs
+
+    return np.unique(edge_pairs(faces)[3])
 
 
 def mirror_half(v, f, face_part, lateral, plane=None, *, tol_rel=0.005):

@@ -83,21 +83,15 @@ def compute_loads(
         # Ground point under the body's centre: the frame origin when no axles are given.
         warnings.append("no axle positions given: moment taken about the ground under the body's centre; "
                         "axle figures left out")
-    if taps.kind == "p":
-        force, moment = F, M
-        per_q = (F / q, M / q) if q else (None, None)
-    else:
-        per_q = (F, M)
-        force, moment = (F * q, M * q) if q else (None, None)
+    force, moment, per_q = _in_newtons_and_per_q(F, M, taps.kind, q)
     if ref_area is None:
         with progress.step("frontal area"):
             ref_area = body.frontal_area(frontal_resolution)
         area_src = f"frontal area (y-z projection rasterised at {frontal_resolution * 1000:g} mm)"
     else:
         area_src = "given"
-    if per_q[0] is None:
+    if taps.kind == "p" and not q:
         warnings.append("no --q or --speed given: forces in N only, coefficients left out")
-        per_q = (np.full(3, np.nan), np.full(3, np.nan))
     tap_rows = [
         {"name": n, "value": float(v), "distance_m": float(d), "x_m": float(p[0]), "y_m": float(p[1]),
          "z_m": float(p[2]), "face": int(f)}
@@ -135,6 +129,17 @@ def compute_loads(
     return result
 
 
+def _in_newtons_and_per_q(F, M, kind, q):
+    """Force and moment in N and N m, and per unit q (m2, m3), from integrals of Pa (``kind`` "p") or Cp.
+
+    Either pair is unknown without q: the newtons are then None, the per-q vectors NaN.
+    """
+    nan = np.full(3, np.nan)
+    if kind == "p":
+        return F, M, ((F / q, M / q) if q else (nan, nan))
+    return (F * q if q else None), (M * q if q else None), (F, M)
+
+
 def part_loads(body: Body, taps: ProjectedTaps, whole: LoadResult, p_ref: float = 0.0) -> list:
     """Each part's figures: the whole's integral restricted to the part's faces.
 
@@ -161,19 +166,13 @@ def part_loads(body: Body, taps: ProjectedTaps, whole: LoadResult, p_ref: float 
 
     values = whole.face_values if whole.face_values is not None else whole.field.face_values()
     values = np.asarray(values, float)
-    per_q = whole.value_kind == "cp"
     q = whole.q_Pa
     tap_part = body.face_part[taps.faces]
     out = []
     for i, name in enumerate(body.part_names):
         m = body.face_part == i
         F, M = force_and_moment(body.area_vectors[m], body.centroids[m], values[m], np.zeros(3), p_ref)
-        if per_q:
-            force, moment = (F * q, M * q) if q else (None, None)
-            fq, mq = F, M
-        else:
-            force, moment = F, M
-            fq, mq = (F / q, M / q) if q else (np.full(3, np.nan), np.full(3, np.nan))
+        force, moment, (fq, mq) = _in_newtons_and_per_q(F, M, whole.value_kind, q)
         r = replace(whole, force_N=None if force is None else force.tolist(),
                     moment_Nm=None if moment is None else moment.tolist(), force_per_q_m2=fq.tolist(),
                     moment_per_q_m3=mq.tolist(), warnings=[], taps=[], face_values=None, field=None, parts=[])
