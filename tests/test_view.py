@@ -2,6 +2,9 @@
 
 from __future__ import annotations
 
+import subprocess
+import sys
+
 import numpy as np
 import pytest
 
@@ -185,6 +188,52 @@ def test_views_render_off_screen_at_the_requested_size():
     row = side[size[1] // 2]
     left, right = row[size[0] // 2 - 60], row[size[0] // 2 + 60]
     assert left[2] > left[0] and right[0] > right[2]
+
+
+def test_each_view_matches_a_fresh_render_of_it_title_and_camera_included():
+    """One plotter serves all views with as few renders as it can; each picture must still be exactly
+    what a new plotter draws for that view alone (a regression: the title and zoom once lagged a view)."""
+    from meshpress.outputs.view3d import BodyView
+
+    body = _sphere_body(3, 0.5)
+    cp = body.centroids[:, 0] / 0.5
+    size = (320, 200)
+    shared = BodyView(body, cp, kind="cp", size=size)
+    try:
+        seq = [shared.screenshot(n) for n in ("top", "side", "bottom")]
+    finally:
+        shared.close()
+    for name, img in zip(("top", "side", "bottom"), seq):
+        alone = BodyView(body, cp, kind="cp", size=size)
+        try:
+            ref = alone.screenshot(name)
+        finally:
+            alone.close()
+        assert np.abs(img.astype(int) - ref.astype(int)).mean() < 0.5, name
+
+
+def test_a_picture_drawn_aside_equals_the_one_drawn_here(monkeypatch):
+    from meshpress.outputs.aside import start_aside
+
+    payload = bytes(range(256)) * 1000
+    assert start_aside(lambda: payload).result() == payload
+    # Where VTK is not loaded yet the work goes to a child process (its pid comes back).
+    code = ("import os; from meshpress.outputs.aside import start_aside; "
+            "print(start_aside(lambda: str(os.getpid()).encode()).result().decode(), os.getpid())")
+    child, me = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout.split()
+    assert child != me
+    # A child that fails leaves the work to this process, which then raises its own error.
+    calls = []
+
+    def boom():
+        calls.append(1)
+        raise RuntimeError("drawn here")
+
+    with pytest.raises(RuntimeError, match="drawn here"):
+        start_aside(boom).result()
+    assert calls == [1]  # the child's call was in another process; only this one counted here
+    monkeypatch.setenv("MESHPRESS_SERIAL", "1")
+    assert start_aside(lambda: payload).result() == payload
 
 
 def test_colour_limits_are_symmetric_about_zero():

@@ -93,12 +93,21 @@ def write_loads_report(run, out, *, protect, progress, **kw):
     if run.bands is not None:
         from ..outputs.bandreport import bands_section_html, importance_png
 
+        from ..outputs.aside import start_aside
+
         own = is_posterior_model(run.field)
-        with progress.step("rendering the map"):
-            png = importance_png(run.bands, run.body, run.taps, "CL")
-        sections = [("How sure is the number", bands_section_html(
-            run.bands, field_name=None if own else run.field.describe(), map_png=png, map_figure="CL"))]
-        extra, json_extra = {"map_CL": png}, {"uncertainty": run.bands.to_dict()}
+        # The map renders in a second process while write_report draws the views and plots.
+        job = start_aside(lambda: importance_png(run.bands, run.body, run.taps, "CL"))
+
+        def sections():
+            with progress.step("rendering the map"):
+                png = job.result()
+            extra_images["map_CL"] = png
+            return [("How sure is the number", bands_section_html(
+                run.bands, field_name=None if own else run.field.describe(), map_png=png, map_figure="CL"))]
+
+        extra_images, json_extra = {}, {"uncertainty": run.bands.to_dict()}
+        extra = extra_images
     return write_report(run, out, protect=protect, progress=progress, sections=sections, extra_images=extra,
                         json_extra=json_extra, **kw)
 

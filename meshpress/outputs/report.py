@@ -175,9 +175,11 @@ def write_report(run, out_dir, *, protect=(), progress=None, title=None, demo_no
         A banner line (e.g. that the data are invented).
     images : bool
         Also write every picture as a PNG under ``images/``.
-    sections : sequence of (str, str)
+    sections : sequence of (str, str), or a callable returning one
         Further sections, (heading, trusted HTML), placed after the figures
-        (e.g. :func:`meshpress.outputs.bandreport.bands_section_html`).
+        (e.g. :func:`meshpress.outputs.bandreport.bands_section_html`).  A
+        callable is called once the report's own pictures are drawn (and may
+        add to ``extra_images``).
     extra_images : dict, optional
         name -> PNG bytes written under ``images/`` too.
     json_extra : dict, optional
@@ -199,6 +201,8 @@ def write_report(run, out_dir, *, protect=(), progress=None, title=None, demo_no
         check_not_input(out / name, protect)
     out.mkdir(parents=True, exist_ok=True)
     pics = report_pictures(run, progress=progress, **picture_kw)
+    if callable(sections):  # e.g. collecting a picture drawn in another process meanwhile
+        sections = sections()
     result, body, taps = run.result, run.body, run.taps
     rows = tap_rows(body, taps, q=result.q_Pa, p_ref=result.p_ref, field_at_taps=pics["field_at_taps"],
                     residuals=pics["residuals"])

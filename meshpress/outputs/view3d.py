@@ -111,6 +111,9 @@ def _setup_vtk_offscreen():
     # With no display, go straight to EGL instead of trying X first (and warning).
     if not os.environ.get("DISPLAY") and "VTK_DEFAULT_OPENGL_WINDOW" not in os.environ:
         os.environ["VTK_DEFAULT_OPENGL_WINDOW"] = "vtkEGLRenderWindow"
+        # pyvista otherwise probes for an X server by opening a trial OpenGL window (~0.5 s) only to
+        # decide whether to warn; off screen through EGL there is nothing to warn about.
+        os.environ.setdefault("ALLOW_PLOTTING", "true")
 
 
 def has_display() -> bool:
@@ -324,10 +327,17 @@ class BodyView:
             pl.disable_parallel_projection()
             pl.camera.view_angle = 24.0
         self._ground.SetVisibility(name != "bottom")  # the ground would hide the underside
-        pl.reset_camera()
+        # Renders cost ~0.1 s each in software OpenGL: one here and the screenshot's, no more.
+        pl.reset_camera(render=False)
         pl.camera.zoom(ZOOM[name])
-        pl.add_text(f"meshpress  \u00b7  {VIEW_TITLES[name]}", position=(12, self.size[1] - 30), font_size=13,
-                    color=INK, font="courier", name="title")
+        text = f"meshpress  \u00b7  {VIEW_TITLES[name]}"
+        if getattr(self, "_title", None) is None:
+            self._title = pl.add_text(text, position=(12, self.size[1] - 30), font_size=13, color=INK,
+                                      font="courier", name="title", render=False)
+        else:
+            self._title.SetInput(text)
+        # A text actor shows its new text only from the second render on: without this one the
+        # screenshot carried the previous view's title.
         pl.render()
         return pl
 
@@ -351,6 +361,7 @@ class BodyView:
         if self._plotter is not None:
             self._plotter.close()
             self._plotter = None
+            self._title = None
 
 
 def render_views(body, face_values, taps=None, *, views=tuple(VIEWS), progress=None, **kw) -> dict:
