@@ -76,6 +76,58 @@ def test_degenerate_and_duplicate_faces_dropped(tmp_path):
     assert b.report.faces == len(f) and b.report.dropped_faces == 7
 
 
+@pytest.mark.parametrize("top", [2**30, 2**32, 2**40])
+def test_row_grouping_above_the_one_key_limit_matches_numpy_unique(top):
+    # Rows whose values reach 2**30 (two columns still pack into one int64), 2**32 or 2**40 (they do not), far
+    # above the 2**21 that one int64 key holds for three columns: the grouping must partition them exactly as
+    # np.unique(axis=0) does (the reference) and keep each group's first row.  At 2**32 the key
+    # (a n + b) n + c wraps to b n + c, so (1, 5, 7) and (2, 5, 7) would meet under a key that overflowed.
+    from meshpress.bodies.cleaning import ONE_KEY_LIMIT, group_rows
+
+    rng = np.random.default_rng(5)
+    base = rng.integers(0, top, size=(400, 3))
+    base[:50, :2] = base[50:100, :2]  # rows that share their first two values and differ in the third
+    base[100:103] = [[1, 5, 7], [2, 5, 7], [top - 1, top - 1, top - 1]]
+    rows = base[rng.integers(0, len(base), size=3000)]
+    n = int(rows.max()) + 1
+    assert n >= ONE_KEY_LIMIT
+    codes, first = group_rows(rows, n)
+    ref_rows, ref_first, ref_inv = np.unique(rows, axis=0, return_index=True, return_inverse=True)
+    assert np.array_equal(np.sort(first), np.sort(ref_first))
+    assert np.array_equal(rows[first][codes], rows)
+    # The same partition: every group of ours is one group of numpy's and back.
+    assert len(set(zip(codes.tolist(), ref_inv.ravel().tolist()))) == len(first) == len(ref_rows)
+    assert np.array_equal(codes[first], np.arange(len(first)))  # numbered in order of first appearance
+
+
+def test_cleaning_through_the_two_key_grouping_matches_numpy_unique(monkeypatch):
+    # A shuffled soup of a sphere with repeated and re-ordered faces, cleaned once with one key per row and once
+    # forced through the two-key grouping (the path of meshes above 2**21 vertices): the same vertices, faces and
+    # kept faces; and the counts np.unique(axis=0) gives (the reference) on the quantised coordinates and the
+    # sorted faces.
+    from meshpress.bodies import cleaning
+    from meshpress.tolerances import TOL
+
+    rng = np.random.default_rng(3)
+    v, f = icosphere(3)
+    f = np.vstack([f, f[:40][:, [1, 2, 0]], f[40:60][:, ::-1]])  # 40 repeated faces, 20 repeated and flipped
+    f = f[rng.permutation(len(f))]
+    vs, fs = _soup(v + 1e-9 * rng.standard_normal(v.shape), f)
+    one = cleaning.clean(vs, fs)
+    monkeypatch.setattr(cleaning, "ONE_KEY_LIMIT", 2)
+    two = cleaning.clean(vs, fs)
+    for a, b in zip(one, two):
+        assert np.array_equal(np.asarray(a), np.asarray(b))
+    lo = vs.min(axis=0)
+    span = float((vs.max(axis=0) - lo).max())
+    q = ((vs - lo) * (10.0**TOL.merge_digits / span) + 0.5).astype(np.int64)
+    ref_v, ref_inv = np.unique(q, axis=0, return_inverse=True)
+    ref_f = np.unique(np.sort(ref_inv.ravel()[fs], axis=1), axis=0)
+    assert len(two[0]) == len(ref_v) == len(v) and two[3] == len(vs) - len(ref_v)
+    assert len(two[1]) == len(ref_f) == len(f) - 60 and two[4] == 60
+    assert np.allclose(np.sort(two[0], axis=0), np.sort(v, axis=0), atol=1e-8)
+
+
 def test_meshio_formats_and_quads(tmp_path):
     # A unit cube of quads, written by meshio as VTU: read back, quads split, area 6.
     pts = np.array([[0, 0, 0], [1, 0, 0], [1, 1, 0], [0, 1, 0], [0, 0, 1], [1, 0, 1], [1, 1, 1], [0, 1, 1]], float)

@@ -286,6 +286,55 @@ def test_a_shell_inside_the_body_is_found_and_left_out(tmp_path):
     assert kept.n_faces == len(outer.faces) + len(seat.faces) + len(wing.faces)
 
 
+def test_inside_test_agrees_with_the_closed_form_and_the_full_sum():
+    # The solid angle a closed surface subtends at a point inside it is 4 pi, and 0 outside (Gauss), so the
+    # winding number of a closed polyhedron is 1 nearer its centre than its nearest face plane and 0 beyond its
+    # farthest vertex.  Skin.inside, which replaces far cells of faces by their summed area vector, must give
+    # those answers; and on an open hemisphere, where the winding number takes every value between, the answers
+    # of the full face-by-face sum, also with cells so coarse (theta 3) that most points fall back on that sum.
+    # Near the hemisphere's base disc the winding number is close to 1/2 (the hemisphere subtends 2 pi from its
+    # centre), where the far cells' sum alone would answer wrongly at theta 3 (73 of these 300 points).
+    from meshpress.bodies.inner import Skin, winding_number
+
+    rng = np.random.default_rng(11)
+    tri = _sphere(1.0, (0, 0, 0), 4).triangles
+    n = np.cross(tri[:, 1] - tri[:, 0], tri[:, 2] - tri[:, 0])
+    inradius = float(np.min(np.abs(np.einsum("ij,ij->i", n / np.linalg.norm(n, axis=1)[:, None], tri[:, 0]))))
+    d = rng.standard_normal((200, 3))
+    d /= np.linalg.norm(d, axis=1)[:, None]
+    inner = d * rng.uniform(0.0, 0.999 * inradius, 200)[:, None]
+    outer = d * rng.uniform(1.001, 3.0, 200)[:, None]
+    assert np.allclose(winding_number(inner, tri), 1.0, atol=1e-9)
+    assert np.allclose(winding_number(outer, tri), 0.0, atol=1e-9)
+    skin = Skin(tri)
+    assert all(skin.inside(p) for p in inner) and not any(skin.inside(p) for p in outer)
+    hemi = tri[tri.mean(axis=1)[:, 2] > 0]
+    pts = rng.uniform(-1.5, 1.5, (300, 3))
+    w = winding_number(pts, hemi)
+    assert 0.3 < w[np.linalg.norm(pts, axis=1) < 0.9].mean() < 0.7  # open: neither 0 nor 1 inside
+    disc = np.column_stack([rng.uniform(-0.6, 0.6, (300, 2)), rng.uniform(-0.01, 0.01, 300)])
+    wd = winding_number(disc, hemi)
+    assert np.allclose(wd, 0.5, atol=0.04)
+    pts, w = np.vstack([pts, disc]), np.concatenate([w, wd])
+    for s in (Skin(hemi), Skin(hemi, theta=3.0)):
+        assert [s.inside(p) for p in pts] == list(w > 0.5)
+
+
+def test_shell_search_finds_the_sphere_inside_and_not_the_ones_beside():
+    # Skin: a unit sphere.  A sphere inside it (winding number 1 at all its points, closed form above) is found;
+    # one inside the skin's box but outside the skin (its centre 1.39 from the skin's, radius 0.1) and one across
+    # the skin (half out) are not, nor one outside the box.
+    from meshpress.bodies.inner import inner_shells
+
+    shells = [_sphere(1.0, (0, 0, 0), 4), _sphere(0.2, (0.2, -0.3, 0.1), 2), _sphere(0.1, (0.8, 0.8, 0.8), 2),
+              _sphere(0.2, (0.0, 0.0, 0.95), 2), _sphere(0.2, (2.0, 0.0, 0.0), 2)]
+    labels = [7, 3, 5, 9, 4]
+    tri = np.vstack([m.triangles for m in shells])
+    component = np.concatenate([np.full(len(m.faces), k) for m, k in zip(shells, labels)])
+    areas = np.concatenate([m.area_faces for m in shells])
+    assert np.array_equal(inner_shells(component, tri, areas), [3])
+
+
 def test_non_manifold_edges_are_counted_and_located():
     # Three triangles on one edge (a fin glued to a plate along its edge): that edge has three faces, the only
     # non-manifold one (definition of a 2-manifold mesh: every edge has one or two faces).

@@ -15,6 +15,48 @@ from .grouping import group
 from .readers import unique_names
 
 
+#: Below this many distinct values per column a row of three packs into one int64 key (3 x 21 bits < 63).
+ONE_KEY_LIMIT = 2**21
+
+
+def group_rows(rows: np.ndarray, n: int):
+    """Group equal rows of three non-negative integers, exactly and in linear time.
+
+    Gives the same grouping as ``np.unique(rows, axis=0, return_inverse=True, return_index=True)``, but with the
+    groups numbered in order of first appearance (hashing, :func:`.grouping.group`) instead of sorted.  Below
+    :data:`ONE_KEY_LIMIT` values per column the row is one int64 key; above it the first two columns make one key
+    (the first column's group number in place of its value when ``n**2`` overflows), and that key's group number
+    with the third column makes a second: exact while ``len(rows) * n < 2**63``, which holds for any mesh that
+    fits in memory.
+
+    Parameters
+    ----------
+    rows : (k, 3) int64
+        Values in ``[0, n)``.
+    n : int
+        One more than the largest value.
+
+    Returns
+    -------
+    codes : (k,) int64
+        Group of every row, numbered in order of first appearance.
+    first : (g,) int64
+        Index of the first row of every group.
+    """
+    rows = np.asarray(rows, dtype=np.int64)
+    if n < ONE_KEY_LIMIT:
+        codes, first, _, _ = group((rows[:, 0] * n + rows[:, 1]) * n + rows[:, 2])
+        return codes, first
+    if len(rows) * n >= 2**63:
+        raise ValueError(f"{n:,} values per column of {len(rows):,} rows do not fit an int64 key")
+    if n * n < 2**63:
+        pair, _, _, _ = group(rows[:, 0] * n + rows[:, 1])
+    else:  # the first column's group number (< len(rows)) stands in for it
+        pair, _, _, _ = group(group(rows[:, 0])[0] * n + rows[:, 1])
+    codes, first, _, _ = group(pair * n + rows[:, 2])
+    return codes, first
+
+
 def clean(v: np.ndarray, f: np.ndarray):
     """Merge duplicate vertices, drop degenerate and duplicate faces, unused vertices.
 
@@ -38,10 +80,7 @@ def clean(v: np.ndarray, f: np.ndarray):
     span = float((v.max(axis=0) - lo).max()) or 1.0
     # floor(x + 1/2) rounds the non-negative scaled coordinates in one pass.
     q = ((v - lo) * (10.0**TOL.merge_digits / span) + 0.5).astype(np.int64)
-    # Pack the three quantised coordinates (< 2**21 each) into one int64: a 1D unique is several
-    # times faster than np.unique(axis=0) on millions of rows.
-    key = (q[:, 0] << 42) | (q[:, 1] << 21) | q[:, 2]
-    inv, first, _, _ = group(key)
+    inv, first = group_rows(q, int(q.max()) + 1)
     v = v[first]
     f = inv[f]
     merged = n0 - len(v)
@@ -55,11 +94,7 @@ def clean(v: np.ndarray, f: np.ndarray):
     f, cr = f[keep], cr[keep]
     # Duplicate faces (same three vertices in any order).
     sf = np.sort(f, axis=1)
-    n = int(sf.max()) + 1
-    if n < 2**21:  # n**3 fits in an int64: one key per face
-        _, uniq, _, _ = group((sf[:, 0] * n + sf[:, 1]) * n + sf[:, 2])
-    else:
-        _, uniq = np.unique(sf, axis=0, return_index=True)
+    _, uniq = group_rows(sf, int(sf.max()) + 1)
     uniq = np.sort(uniq)
     f, cr = f[uniq], cr[uniq]
     if len(f) == 0:
