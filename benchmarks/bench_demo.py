@@ -1,7 +1,7 @@
 """Wall time of ``meshpress demo`` (loads, bands and report on the bundled 40,000-face sample).
 
 Runs, alternating, in one session: this checkout; this checkout with ``MESHPRESS_SERIAL=1`` (the bands map
-drawn in the same process as the rest, see ``meshpress/outputs/aside.py``); and, with ``--before REV``, the
+drawn in the same process as the rest, see ``meshpress/aside.py``); and, with ``--before REV``, the
 code of that revision (checked out into a temporary git worktree and run with ``python -m meshpress``).
 Each run writes into an empty temporary folder.  The best and the median of ``--repeat`` runs are printed
 and stored in ``benchmarks/results/bench_demo.json``.

@@ -36,6 +36,23 @@ def test_spectrum_of_the_unit_sphere(carrier):
     np.testing.assert_allclose(gram, np.eye(20), atol=1e-8)
 
 
+def test_carrier_distances_from_a_second_process_equal_those_made_here(carrier, monkeypatch):
+    # The distances are computed in a forked child where that is possible (meshpress.aside); the great-circle
+    # distance on the unit sphere (arc = angle between the position vectors) is the outside reference.
+    import meshpress.aside as aside
+
+    assert aside.aside_possible()
+    d_child = carrier.distance
+    monkeypatch.setenv("MESHPRESS_SERIAL", "1")
+    v, f = icosphere(3)
+    here = Carrier(Body(v, f), 2500)
+    assert here._distance_job is None
+    np.testing.assert_array_equal(d_child, here.distance)
+    u = carrier.vertices / np.linalg.norm(carrier.vertices, axis=1, keepdims=True)
+    arc = np.arccos(np.clip(u @ u.T, -1.0, 1.0))
+    assert np.sqrt(np.mean((d_child - arc) ** 2)) < 0.03  # heat method at 642 vertices: a few per cent
+
+
 def sphere_correlation(cosg, length, nu, lmax=80):
     """Closed-form zonal correlation on the unit sphere.
 

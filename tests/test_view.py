@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import os
 import subprocess
 import sys
 
@@ -213,15 +214,19 @@ def test_each_view_matches_a_fresh_render_of_it_title_and_camera_included():
 
 
 def test_a_picture_drawn_aside_equals_the_one_drawn_here(monkeypatch):
-    from meshpress.outputs.aside import start_aside
+    from meshpress.aside import start_aside
 
     payload = bytes(range(256)) * 1000
     assert start_aside(lambda: payload).result() == payload
     # Where VTK is not loaded yet the work goes to a child process (its pid comes back).
-    code = ("import os; from meshpress.outputs.aside import start_aside; "
+    code = ("import os; from meshpress.aside import start_aside; "
             "print(start_aside(lambda: str(os.getpid()).encode()).result().decode(), os.getpid())")
     child, me = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout.split()
     assert child != me
+    # Work that draws waits for this process once VTK's renderer is loaded here (as it is after the tests above).
+    import pyvista  # noqa: F401
+
+    assert start_aside(lambda: str(os.getpid()).encode(), opengl=True).result() == str(os.getpid()).encode()
     # A child that fails leaves the work to this process, which then raises its own error.
     calls = []
 

@@ -262,7 +262,8 @@ class SurfaceGP:
         if trend not in (None,) + TRENDS:
             raise InputError(f"kriging trend must be one of {', '.join(TRENDS)} or none, got {trend!r}")
         needs = any(k in SPECTRAL_KERNELS for k in kernel_names(kernel))
-        return cls(carrier.distance, kernel=kernel, spectrum=carrier.spectrum() if needs else None,
+        spectrum = carrier.spectrum() if needs else None  # first: the distances may still be on their way
+        return cls(carrier.distance, kernel=kernel, spectrum=spectrum,
                    normals=carrier.normals if (trend is not None or orientation) else None, groups=groups,
                    orientation=orientation, trend=trend is not None, trend_basis=trend or "normal",
                    orientation_kernel=orientation_kernel, **params)

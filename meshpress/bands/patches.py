@@ -24,6 +24,8 @@ effect of ``n_c`` on the benchmark bands.
 
 from __future__ import annotations
 
+import threading
+
 import numpy as np
 import scipy.sparse as sp
 
@@ -60,7 +62,7 @@ class Carrier:
     """
 
     def __init__(self, body, n_vertices: int = 2500, *, progress=None, simplify: str = "auto"):
-        from ..bodies.geodesic import SurfaceDistance
+        from ..aside import aside_possible, start_aside
         from .coarsen import coarsen
 
         vc, fc, self.route = coarsen(body.vertices, body.faces, n_vertices, how=simplify,
@@ -74,20 +76,40 @@ class Carrier:
         self.body = body
         self.vertices, self.faces = vc, fc
         self.normals = _vertex_normals(vc, fc)
-        solver = SurfaceDistance(vc, fc)
-        rows = range(len(vc))
-        it = progress.track(rows, len(vc), "surface distances") if progress else rows
-        d = np.empty((len(vc), len(vc)))
-        for i in it:
-            d[i] = solver.from_vertex(i)
-        d = 0.5 * (d + d.T)
-        # Vertices the heat flow cannot reach (separate shells) come back as inf/nan: treat as far apart.
-        bad = ~np.isfinite(d)
-        if bad.any():
-            d[bad] = 10.0 * np.nanmax(np.where(bad, np.nan, d))
-        np.fill_diagonal(d, 0.0)
-        self.distance = d
+        self._progress = progress
+        self._distance_lock = threading.Lock()
+        # The distances (one heat-method solve per vertex, holding the GIL) go to a second process where
+        # that is safe, while this one builds the face matrix and the spectrum; `distance` collects them.
+        self._distance_job = start_aside(lambda: _surface_distances(vc, fc, None)) if aside_possible() else None
+        self._distance = None
         self.face_matrix = self.points_matrix_idw(body.centroids, body.face_normals)
+
+    @property
+    def distance(self) -> np.ndarray:
+        """(n_c, n_c) float: symmetrised heat-method surface distance between carrier vertices, m."""
+        if self._distance is None:
+            with self._distance_lock:  # the kriging candidates are fitted from two threads
+                if self._distance is None:
+                    job = self._distance_job
+                    d = job.result() if job is not None else _surface_distances(self.vertices, self.faces,
+                                                                               self._progress)
+                    self._distance, self._distance_job = d, None
+        return self._distance
+
+    @distance.setter
+    def distance(self, d):
+        self._distance, self._distance_job = np.asarray(d, float), None
+
+    def __getstate__(self):  # copies and pickles carry the distances, not the process making them
+        self.distance
+        state = dict(self.__dict__)
+        state.pop("_distance_lock", None)
+        state["_distance_job"] = None
+        return state
+
+    def __setstate__(self, state):
+        self.__dict__.update(state)
+        self._distance_lock = threading.Lock()
 
     @property
     def n(self) -> int:
@@ -141,7 +163,7 @@ class Carrier:
         counts, cols, vals = [], [], []
         for s in range(0, len(points), chunk):
             p, nrm = points[s : s + chunk], normals[s : s + chunk]
-            d, j = tree.query(p, k=kq)
+            d, j = tree.query(p, k=kq, workers=-1)  # threads in C; same result
             d, j = d.reshape(len(p), kq), j.reshape(len(p), kq)
             ok = np.einsum("pkd,pd->pk", self.normals[j], nrm) > 0.0
             ok[:, 0] |= ~ok.any(axis=1)  # nothing compatible: take the nearest anyway
@@ -271,3 +293,23 @@ def _vertex_normals(v, f):
         np.add.at(n, f[:, c], a)
     ln = np.linalg.norm(n, axis=1, keepdims=True)
     return n / np.maximum(ln, 1e-300)
+
+
+def _surface_distances(vertices, faces, progress=None) -> np.ndarray:
+    """(n, n) float: symmetrised heat-method distances between the vertices of a mesh, m."""
+    from ..bodies.geodesic import SurfaceDistance
+
+    solver = SurfaceDistance(vertices, faces)
+    n = len(vertices)
+    rows = range(n)
+    it = progress.track(rows, n, "surface distances") if progress else rows
+    d = np.empty((n, n))
+    for i in it:
+        d[i] = solver.from_vertex(i)
+    d = 0.5 * (d + d.T)
+    # Vertices the heat flow cannot reach (separate shells) come back as inf/nan: treat as far apart.
+    bad = ~np.isfinite(d)
+    if bad.any():
+        d[bad] = 10.0 * np.nanmax(np.where(bad, np.nan, d))
+    np.fill_diagonal(d, 0.0)
+    return d

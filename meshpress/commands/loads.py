@@ -93,11 +93,11 @@ def write_loads_report(run, out, *, protect, progress, **kw):
     if run.bands is not None:
         from ..outputs.bandreport import bands_section_html, importance_png
 
-        from ..outputs.aside import start_aside
+        from ..aside import start_aside
 
         own = is_posterior_model(run.field)
         # The map renders in a second process while write_report draws the views and plots.
-        job = start_aside(lambda: importance_png(run.bands, run.body, run.taps, "CL"))
+        job = start_aside(lambda: importance_png(run.bands, run.body, run.taps, "CL"), opengl=True)
 
         def sections():
             with progress.step("rendering the map"):
