@@ -81,6 +81,7 @@ def report_pictures(run, *, progress=None, views=VIEW_ORDER, view_size=(1200, 72
         ``plots``: name -> PNG bytes; ``views``: name -> PNG bytes; ``residuals``: (n,) or None;
         ``field_at_taps``: (n,) or None; ``unit``; ``render_seconds``; ``decimated``; ``notes``.
     """
+    from ..aside import start_aside
     from . import plots
     from .view3d import render_views
 
@@ -107,28 +108,35 @@ def report_pictures(run, *, progress=None, views=VIEW_ORDER, view_size=(1200, 72
     except NotImplementedError:
         pass
     out = {"plots": {}, "views": {}}
-    with step("drawing plots"):
-        vertex_vals = np.asarray(body.vertex_faces_matrix @ ((values - p_ref) * to_unit))
-        sec = section_at_y(body.vertices, body.faces, body.face_normals, vertex_vals, 0.0)
-        tap_d = {"x_m": taps.points[:, 0], "y_m": taps.points[:, 1], "values": (taps.values - p_ref) * to_unit,
-                 "upper": body.face_normals[taps.faces, 2] > 0}
-        out["plots"]["centre_line"] = plots.png_bytes(
-            plots.centre_line_plot(sec, tap_d, unit=unit, axles=body.axles))
-        scale = q if (kind == "cp" and q) else 1.0
-        per_q = kind == "cp" and not q
-        dist = lift_distribution(body.triangles, body.area_vectors, values, p_ref=p_ref, scale=scale)
-        out["plots"]["lift_distribution"] = plots.png_bytes(plots.lift_distribution_plot(
-            dist, per_q=per_q, axles=body.axles, front_lift=result.front_lift_N, rear_lift=result.rear_lift_N))
+    vertex_vals = np.asarray(body.vertex_faces_matrix @ ((values - p_ref) * to_unit))
+    sec = section_at_y(body.vertices, body.faces, body.face_normals, vertex_vals, 0.0)
+    tap_d = {"x_m": taps.points[:, 0], "y_m": taps.points[:, 1], "values": (taps.values - p_ref) * to_unit,
+             "upper": body.face_normals[taps.faces, 2] > 0}
+    scale = q if (kind == "cp" and q) else 1.0
+    per_q = kind == "cp" and not q
+    dist = lift_distribution(body.triangles, body.area_vectors, values, p_ref=p_ref, scale=scale)
+
+    def draw_plots():
+        png = {"centre_line": plots.png_bytes(plots.centre_line_plot(sec, tap_d, unit=unit, axles=body.axles)),
+               "lift_distribution": plots.png_bytes(plots.lift_distribution_plot(
+                   dist, per_q=per_q, axles=body.axles, front_lift=result.front_lift_N,
+                   rear_lift=result.rear_lift_N))}
         if len(body.part_names) > 1:
-            out["plots"]["parts"] = plots.png_bytes(plots.parts_plot(body.triangles, body.face_part,
-                                                                     body.part_names, axles=body.axles))
+            png["parts"] = plots.png_bytes(plots.parts_plot(body.triangles, body.face_part, body.part_names,
+                                                            axles=body.axles))
         if residuals is not None:
-            out["plots"]["residuals"] = plots.png_bytes(
-                plots.residual_plot(list(taps.names), residuals * to_unit, unit=unit))
+            png["residuals"] = plots.png_bytes(plots.residual_plot(list(taps.names), residuals * to_unit,
+                                                                   unit=unit))
+        return png
+
+    # The plots are drawn in a second process (matplotlib, one core) while this one renders the views.
+    plot_job = start_aside(draw_plots)
     imgs = render_views(body, values, taps, views=views, progress=progress, kind=kind, q=q, p_ref=p_ref,
                         size=view_size, tap_names=tap_names, arrows=arrows, quantity=quantity)
     for name in views:
         out["views"][name] = _png(imgs[name])
+    with step("drawing plots"):
+        out["plots"].update(plot_job.result())
     if imgs["_decimated"]:
         notes.append(f"the 3D views show a decimated copy of the {body.n_faces:,}-face mesh (for speed); "
                      "the loads use every face")

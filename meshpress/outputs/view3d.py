@@ -327,7 +327,7 @@ class BodyView:
             pl.disable_parallel_projection()
             pl.camera.view_angle = 24.0
         self._ground.SetVisibility(name != "bottom")  # the ground would hide the underside
-        # Renders cost ~0.1 s each in software OpenGL: one here and the screenshot's, no more.
+        # Renders cost ~0.1 s each in software OpenGL: this view's one render is the one below.
         pl.reset_camera(render=False)
         pl.camera.zoom(ZOOM[name])
         text = f"meshpress  \u00b7  {VIEW_TITLES[name]}"
@@ -336,8 +336,8 @@ class BodyView:
                                       font="courier", name="title", render=False)
         else:
             self._title.SetInput(text)
-        # A text actor shows its new text only from the second render on: without this one the
-        # screenshot carried the previous view's title.
+        # pyvista's screenshot renders only on the first call and later reads the window as it is: without
+        # this render a picture showed the previous view's title and zoom.
         pl.render()
         return pl
 
