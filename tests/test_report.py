@@ -196,6 +196,32 @@ def test_report_without_q_or_axles_and_with_awkward_names(tmp_path):
     assert page.count("data:image/png;base64,") == 4
 
 
+def test_views_started_after_the_fit_are_the_views_drawn_by_the_report(tmp_path):
+    # run_loads_parts(after_fit=...) lets the report's views start before the bands (meshpress.aside);
+    # the report must show the same pictures as when it draws them itself.
+    from meshpress.loads.analysis import run_loads_parts
+    from meshpress.outputs.report import start_views, write_report
+
+    mesh, taps = _write_case(tmp_path, "plain.stl")
+    jobs = []
+    kw = dict(views=("side", "top"), view_size=(320, 200))
+    run = run_loads_parts(mesh, taps, after_fit=lambda b, t, r: jobs.append(start_views(b, t, r, **kw)))
+    assert len(jobs) == 1
+    early = write_report(run, tmp_path / "early", views_job=jobs[0], **kw)
+    late = write_report(run, tmp_path / "late", **kw)
+    for name in ("view_side.png", "view_top.png"):
+        a = np.asarray(_png_array((tmp_path / "early" / "images" / name).read_bytes()), int)
+        b = np.asarray(_png_array((tmp_path / "late" / "images" / name).read_bytes()), int)
+        assert a.shape == b.shape and np.abs(a - b).mean() < 0.5, name
+    assert early.html.read_text().count("data:image/png") == late.html.read_text().count("data:image/png")
+
+
+def _png_array(png: bytes):
+    from PIL import Image
+
+    return np.asarray(Image.open(io.BytesIO(png)).convert("RGB"))
+
+
 def test_report_never_overwrites_an_input(tmp_path):
     from meshpress.loads.analysis import run_loads_parts
     from meshpress.errors import InputError

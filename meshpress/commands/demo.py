@@ -47,7 +47,7 @@ def run(args) -> int:
     from ..progress import Progress
     from ..loads.results import write_json
     from ..errors import InputError
-    from .loads import bands_measurement, format_loads, write_loads_report
+    from .loads import bands_measurement, format_loads, views_after_fit, write_loads_report
 
     sample = SAMPLES[args.sample]
     if args.scan and not sample["scan"]:
@@ -57,7 +57,11 @@ def run(args) -> int:
     progress = Progress(enabled=False if args.quiet else None)
     q = resolve_q(speed=DEMO_SPEED_KMH / 3.6)
     print(f"meshpress demo: {mesh.name} with {taps.name} at {DEMO_SPEED_KMH:g} km/h (INVENTED DEMO DATA)\n")
-    run = run_loads_parts(mesh, taps, q=q, progress=progress,
+    from ..outputs.report import missing_libraries
+
+    missing = [] if args.no_report else missing_libraries()
+    views = views_after_fit(not (args.no_report or missing))
+    run = run_loads_parts(mesh, taps, q=q, progress=progress, after_fit=views,
                           bands=None if args.no_bands else bands_measurement(DEMO_SENSOR_PA), **sample["settings"])
     print(format_loads(run))
     if run.bands is not None:
@@ -66,16 +70,13 @@ def run(args) -> int:
     out = Path(args.out)
     out.mkdir(parents=True, exist_ok=True)
     bands = {"uncertainty": run.bands.to_dict()} if run.bands is not None else {}
-    from ..outputs.report import missing_libraries
-
-    missing = [] if args.no_report else missing_libraries()
     if args.no_report or missing:  # with a report, the report writes loads.json (json_extra)
         write_json({**run.result.to_dict(), **bands}, out / "loads.json", protect=(mesh, taps))
         print(f"\n  wrote {out / 'loads.json'}")
         if missing:
             print(f"  no report: it needs {', '.join(missing)} (pip install {' '.join(missing)})")
         return 0
-    files = write_loads_report(run, out, protect=(mesh, taps), progress=progress,
+    files = write_loads_report(run, out, protect=(mesh, taps), progress=progress, views_job=views.job,
                                title=f"meshpress demo: {mesh.name}",
                                demo_note=f"INVENTED DEMO DATA ({sample['what']}; made-up readings), to show "
                                          "what meshpress does. Not a measurement of any car.")

@@ -51,6 +51,7 @@ def run(args) -> int:
         p_ref=args.p_ref, bands=None if args.no_bands else bands_measurement(args.sensor_accuracy),
         parts=parse_parts(args.part), merge_parts=args.merge_parts, mirror=args.mirror,
         mirror_taps=args.mirror_taps, keep_inner=args.keep_inner, progress=progress,
+        after_fit=(views := views_after_fit(bool(args.report))),
     )
     print(format_loads(run))
     extra = {} if run.bands is None else {"uncertainty": run.bands.to_dict()}
@@ -58,7 +59,8 @@ def run(args) -> int:
         write_json({**run.result.to_dict(), **extra}, args.json, protect=(args.mesh, args.taps))
         print(f"\n  wrote {args.json}")
     if args.report:
-        files = write_loads_report(run, args.report, protect=(args.mesh, args.taps), progress=progress)
+        files = write_loads_report(run, args.report, protect=(args.mesh, args.taps), progress=progress,
+                                   views_job=views.job)
         print(f"\n  wrote {files.html} (open it in a browser) and the files beside it")
     return 0
 
@@ -82,6 +84,20 @@ def format_loads(run) -> str:
     if is_posterior_model(run.field):
         return format_result(run.result, bands=run.bands)
     return format_result(run.result) + "\n\n" + format_bands(run.bands, run.field.describe())
+
+
+class views_after_fit:
+    """An ``after_fit`` hook that starts the report's 3D views once the field is fitted (when ``wanted``), so
+    they render in a second process while the bands are computed; ``job`` is then passed to the report."""
+
+    def __init__(self, wanted: bool):
+        self.wanted, self.job = wanted, None
+
+    def __call__(self, body, taps, result):
+        if self.wanted:
+            from ..outputs.report import start_views
+
+            self.job = start_views(body, taps, result)
 
 
 def write_loads_report(run, out, *, protect, progress, **kw):

@@ -237,7 +237,8 @@ class LoadRun:
 def run_loads_parts(mesh, taps_file, *, length_unit="m", up="+z", forward="-x", front_axle=None, rear_axle=None,
                     ground=None, pressure_unit="Pa", max_tap_distance=TOL.max_tap_distance_m, method=DEFAULT_METHOD,
                     method_settings=None, q=None, ref_area=None, p_ref=0.0, bands=None, parts=None,
-                    merge_parts=False, mirror=None, mirror_taps=False, keep_inner=False, progress=None) -> LoadRun:
+                    merge_parts=False, mirror=None, mirror_taps=False, keep_inner=False, progress=None,
+                    after_fit=None) -> LoadRun:
     """:func:`run_loads`, keeping the body, the projected taps and the fitted field.
 
     ``bands``: None for none, True for the bands with no stated measurement error (the fit's nugget still
@@ -246,7 +247,9 @@ def run_loads_parts(mesh, taps_file, *, length_unit="m", up="+z", forward="-x", 
     ``parts``: more parts from other files (:func:`~meshpress.bodies.body.load_body`); a body of several parts
     is fitted with its parts as independent regions unless ``merge_parts``.  ``mirror``: the mesh is half a
     body (:func:`~meshpress.bodies.body.load_body`); ``mirror_taps``: the taps are on one side and are mirrored
-    to the other (:func:`~meshpress.bodies.mirror.mirror_taps`).
+    to the other (:func:`~meshpress.bodies.mirror.mirror_taps`).  ``after_fit(body, projected, result)`` is
+    called once the loads are computed, before the bands (e.g. to start the report's views meanwhile:
+    :func:`meshpress.outputs.report.start_views`).
     """
     progress = progress or Progress(enabled=False)
     body = load_body(mesh, length_unit=length_unit, up=up, forward=forward, front_axle=front_axle,
@@ -294,6 +297,8 @@ def run_loads_parts(mesh, taps_file, *, length_unit="m", up="+z", forward="-x", 
         field.q = q if field.q is None else field.q
     result = compute_loads(body, projected, field, q=q, ref_area=ref_area, p_ref=p_ref, progress=progress)
     result.inputs["taps"] = str(taps_file)
+    if after_fit is not None:
+        after_fit(body, projected, result)
     unc = None
     if meas is not None:
         from ..bands.uncertainty import compute_uncertainty

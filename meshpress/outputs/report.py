@@ -72,8 +72,10 @@ def _img_tag(png: bytes, alt: str, cls="") -> str:
 
 
 def report_pictures(run, *, progress=None, views=VIEW_ORDER, view_size=(1200, 720), tap_names=False,
-                    arrows=False, quantity="cp"):
+                    arrows=False, quantity="cp", views_job=None):
     """Compute the report's derived data and draw its pictures.
+
+    ``views_job``: the 3D views already started by :func:`start_views` (with the same view settings).
 
     Returns
     -------
@@ -83,7 +85,6 @@ def report_pictures(run, *, progress=None, views=VIEW_ORDER, view_size=(1200, 72
     """
     from ..aside import start_aside
     from . import plots
-    from .view3d import render_views
 
     body, taps, fld, result = run.body, run.taps, run.field, run.result
     q, kind, p_ref = result.q_Pa, result.value_kind, result.p_ref
@@ -131,18 +132,48 @@ def report_pictures(run, *, progress=None, views=VIEW_ORDER, view_size=(1200, 72
 
     # The plots are drawn in a second process (matplotlib, one core) while this one renders the views.
     plot_job = start_aside(draw_plots)
-    imgs = render_views(body, values, taps, views=views, progress=progress, kind=kind, q=q, p_ref=p_ref,
-                        size=view_size, tap_names=tap_names, arrows=arrows, quantity=quantity)
-    for name in views:
-        out["views"][name] = _png(imgs[name])
-    with step("drawing plots"):
-        out["plots"].update(plot_job.result())
-    if imgs["_decimated"]:
+    if views_job is None:
+        drawn = _draw_views(body, values, taps, views, kind, q, p_ref, view_size, tap_names, arrows, quantity,
+                            progress)
+    else:
+        with step("rendering 3D views"):
+            drawn = views_job.result()
+    out["views"].update(drawn["views"])
+    if drawn["decimated"]:
         notes.append(f"the 3D views show a decimated copy of the {body.n_faces:,}-face mesh (for speed); "
                      "the loads use every face")
+    with step("drawing plots"):
+        out["plots"].update(plot_job.result())
     out.update(residuals=residuals, field_at_taps=field_at_taps, unit=unit, to_unit=to_unit,
-               render_seconds=imgs["_seconds"], decimated=imgs["_decimated"], notes=notes, lift_dist=dist)
+               render_seconds=drawn["seconds"], decimated=drawn["decimated"], notes=notes, lift_dist=dist)
     return out
+
+
+def _draw_views(body, values, taps, views, kind, q, p_ref, view_size, tap_names, arrows, quantity, progress=None):
+    """The report's 3D views: ``{"views": name -> PNG bytes, "seconds": float, "decimated": bool}``."""
+    from .view3d import render_views
+
+    imgs = render_views(body, values, taps, views=views, progress=progress, kind=kind, q=q, p_ref=p_ref,
+                        size=view_size, tap_names=tap_names, arrows=arrows, quantity=quantity)
+    return {"views": {name: _png(imgs[name]) for name in views}, "seconds": imgs["_seconds"],
+            "decimated": imgs["_decimated"]}
+
+
+def start_views(body, taps, result, *, views=VIEW_ORDER, view_size=(1200, 720), tap_names=False, arrows=False,
+                quantity="cp"):
+    """Start the report's 3D views of a fitted field in a second process, as soon as the field exists.
+
+    The views need the field only, so they can render while this process computes the bands
+    (:func:`meshpress.loads.analysis.run_loads_parts`'s ``after_fit``).  Pass the job to
+    :func:`write_report` as ``views_job``, with the same view settings.  Where a child cannot be
+    forked safely the views are drawn here when the report asks for them (:mod:`meshpress.aside`).
+    """
+    from ..aside import start_aside
+
+    values = np.asarray(result.face_values, float)
+    kind, q, p_ref = result.value_kind, result.q_Pa, result.p_ref
+    return start_aside(lambda: _draw_views(body, values, taps, views, kind, q, p_ref, view_size, tap_names, arrows,
+                                           quantity), opengl=True)
 
 
 class _null_step:
@@ -193,7 +224,8 @@ def write_report(run, out_dir, *, protect=(), progress=None, title=None, demo_no
     json_extra : dict, optional
         Further top-level keys of ``loads.json`` (e.g. ``{"uncertainty": ...}``).
     **picture_kw
-        Passed to :func:`report_pictures` (``views``, ``view_size``, ``tap_names``, ``arrows``, ``quantity``).
+        Passed to :func:`report_pictures` (``views``, ``view_size``, ``tap_names``, ``arrows``, ``quantity``,
+        ``views_job``).
     """
     from ..errors import InputError
     from .export import check_not_input, tap_rows, write_body, write_tap_csv
