@@ -252,6 +252,24 @@ def test_colour_limits_are_symmetric_about_zero():
     np.testing.assert_allclose(cf.faces, v / 2.0)
 
 
+def test_colour_scale_keeps_a_small_parts_own_range():
+    # A small part with a strong field (a wing's suction peak) is not clipped by the body's percentile;
+    # the limit is then that part's own 99.5th percentile (numpy's, the reference).
+    from meshpress.bodies.body import Body
+    from meshpress.outputs.view3d import colour_field
+
+    v1, f1 = icosphere(6, 1.0)  # 81,920 faces: the body
+    v2, f2 = icosphere(2, 0.2)  # 320 faces: the "wing", 0.4 % of the faces, under the 0.5 % a percentile cuts
+    v2 = v2 + [0.0, 0.0, 2.0]
+    body = Body(np.vstack([v1, v2]), np.vstack([f1, f2 + len(v1)]), part_names=["body", "wing"],
+                face_part=np.r_[np.zeros(len(f1), int), np.ones(len(f2), int)])
+    cp = np.r_[np.full(len(f1), 0.3), np.linspace(-1.8, -1.0, len(f2))]
+    cf = colour_field(body, cp, None, "cp", quantity="cp")
+    assert cf.limit == pytest.approx(np.percentile(np.abs(cp[len(f1):]), 99.5))
+    one = colour_field(_sphere_body(4), np.full(5120, 0.3), None, "cp", quantity="cp")
+    assert one.limit == pytest.approx(0.3)
+
+
 def test_decimated_copy_for_big_meshes_keeps_the_field():
     from meshpress.outputs.view3d import body_polydata
 

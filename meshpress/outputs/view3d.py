@@ -103,6 +103,15 @@ def colour_field(body, face_values, taps, kind, *, q=None, p_ref=0.0, quantity="
     both = np.abs(vals) if tv is None else np.concatenate([np.abs(vals), np.abs(tv)])
     # Robust symmetric limits: a few extreme faces (a stagnation point) should not wash out the rest.
     limit = float(np.percentile(both, 99.5)) if len(both) else 1.0
+    # ... but a small part's own range (a wing's suction peak, a few per cent of the faces) is not "a few
+    # extreme faces": each part's 99.5th percentile is kept on the scale too.
+    part = getattr(body, "face_part", None)
+    if part is not None and len(getattr(body, "part_names", ())) > 1 and len(vals) == len(part):
+        absv = np.abs(np.asarray(vals, float))
+        for k in np.unique(part):
+            own = absv[part == k]
+            if len(own) >= 200:
+                limit = max(limit, float(np.percentile(own, 99.5)))
     limit = limit if limit > 0 else 1.0
     return ColourField(quantity, np.asarray(vals, float), None if tv is None else np.asarray(tv, float), limit, label)
 
