@@ -107,23 +107,21 @@ def write_loads_report(run, out, *, protect, progress, **kw):
 
     sections, extra, json_extra = (), None, None
     if run.bands is not None:
-        from ..outputs.bandreport import bands_section_html, importance_png
-
         from ..aside import start_aside
+        from ..outputs.bandreport import bands_section_html, importance_png
 
         own = is_posterior_model(run.field)
         # The map renders in a second process while write_report draws the views and plots.
         job = start_aside(lambda: importance_png(run.bands, run.body, run.taps, "CL"), opengl=True)
+        extra, json_extra = {}, {"uncertainty": run.bands.to_dict()}
 
-        def sections():
+        def bands_section():
             with progress.step("rendering the map"):
-                png = job.result()
-            extra_images["map_CL"] = png
+                extra["map_CL"] = png = job.result()
             return [("How sure is the number", bands_section_html(
                 run.bands, field_name=None if own else run.field.describe(), map_png=png, map_figure="CL"))]
 
-        extra_images, json_extra = {}, {"uncertainty": run.bands.to_dict()}
-        extra = extra_images
+        sections = bands_section
     return write_report(run, out, protect=protect, progress=progress, sections=sections, extra_images=extra,
                         json_extra=json_extra, **kw)
 
