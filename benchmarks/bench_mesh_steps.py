@@ -26,7 +26,6 @@ from __future__ import annotations
 
 import argparse
 import os
-import subprocess
 import sys
 import time
 from pathlib import Path
@@ -160,11 +159,9 @@ def main():
     mesh_path, info = scan.make_case(wd, a.size, scan.make_layout(wd)[1])
     v0, f0, _, _ = read_parts(mesh_path)
     print(f"{mesh_path}: {len(f0):,} faces, {len(v0):,} soup vertices", flush=True)
-    commit = subprocess.run(["git", "-C", str(ROOT), "log", "-1", "--format=%h"], capture_output=True,
-                            text=True).stdout.strip()
-    dirty = subprocess.run(["git", "-C", str(ROOT), "status", "--short", "--", "meshpress"], capture_output=True,
-                           text=True).stdout.split("\n")
-    commit += " (meshpress/ with local changes)" if any(x.strip() for x in dirty) else ""
+    from results import code_version
+
+    commit = code_version()
     print("meshpress at", commit)
     group(np.arange(10))  # pandas' first import, outside the timings
     load_start = load()

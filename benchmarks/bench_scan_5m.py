@@ -342,11 +342,9 @@ def main():
             print(f"case {case} {size}: {cases[case, size][1]['faces']:,} faces, "
                   f"{cases[case, size][1]['file_MB']:.0f} MB ({time.perf_counter() - t0:.1f} s to make or find)",
                   flush=True)
-    commit = subprocess.run(["git", "-C", str(ROOT), "log", "-1", "--format=%h"], capture_output=True,
-                            text=True).stdout.strip()
-    dirty = subprocess.run(["git", "-C", str(ROOT), "status", "--short", "--", "meshpress"], capture_output=True,
-                           text=True).stdout.split("\n")
-    commit += " (meshpress/ with local changes)" if any(x.strip() for x in dirty) else ""
+    from results import code_version
+
+    commit = code_version()
     print("meshpress at", commit)
     import resource
 

@@ -22,6 +22,18 @@ def raw_path(name: str) -> Path:
     return RAW / name
 
 
+def code_version() -> str:
+    """The checkout's commit, with a mark when ``meshpress/`` has changes not committed (the code a figure is of)."""
+    import subprocess
+
+    root = str(HERE.parent)
+    commit = subprocess.run(["git", "-C", root, "log", "-1", "--format=%h"], capture_output=True,
+                            text=True).stdout.strip()
+    dirty = subprocess.run(["git", "-C", root, "status", "--short", "--", "meshpress"], capture_output=True,
+                           text=True).stdout
+    return commit + (" (meshpress/ with local changes)" if dirty.strip() else "")
+
+
 def record(bench: str, variant: str, data) -> Path:
     """Store ``data`` as ``variant`` in ``results/<bench>.json`` (written whole or not at all)."""
     RESULTS.mkdir(exist_ok=True)
